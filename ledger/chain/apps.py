@@ -1,0 +1,6 @@
+from django.apps import AppConfig
+
+
+class ChainConfig(AppConfig):
+    name = "ledger.chain"
+    label = "chain"

@@ -1,0 +1,84 @@
+"""Template helpers: state and verdict badges (words and a symbol, never colour alone), labels."""
+from django import template
+from django.utils.html import format_html
+
+from ledger.plans.models import StudyState
+from ledger.plans.vocabulary import (
+    Allocation, Blinding, Direction, Multiplicity, OutcomeRole, PowerDesign, Sides, TestFamily,
+)
+from ledger.results.models import Verdict
+from ledger.results.vocabulary import EffectKind, StatisticKind
+
+register = template.Library()
+
+STATE_SYMBOLS = {
+    StudyState.DRAFT: "✎",
+    StudyState.SEALED: "◆",
+    StudyState.COLLECTING: "▶",
+    StudyState.REPORTED: "✔",
+    StudyState.WITHDRAWN: "⊘",
+}
+VERDICT_SYMBOLS = {
+    Verdict.SUPPORTED: "▲",
+    Verdict.NULL: "○",
+    Verdict.OPPOSITE: "▼",
+    Verdict.INCONCLUSIVE: "?",
+}
+VOCABULARIES = {
+    "allocation": Allocation,
+    "blinding": Blinding,
+    "direction": Direction,
+    "multiplicity": Multiplicity,
+    "role": OutcomeRole,
+    "power_design": PowerDesign,
+    "sides": Sides,
+    "test_family": TestFamily,
+    "verdict": Verdict,
+    "statistic": StatisticKind,
+    "effect": EffectKind,
+    "state": StudyState,
+}
+
+
+@register.simple_tag
+def state_badge(state: str):
+    label = StudyState(state).label if state in StudyState.values else state
+    return format_html(
+        '<span class="badge state-{}"><span aria-hidden="true">{}</span> {}</span>',
+        state, STATE_SYMBOLS.get(state, "•"), label,
+    )
+
+
+@register.simple_tag
+def verdict_badge(verdict: str):
+    label = Verdict(verdict).label if verdict in Verdict.values else verdict
+    return format_html(
+        '<span class="badge verdict-{}"><span aria-hidden="true">{}</span> {}</span>',
+        verdict, VERDICT_SYMBOLS.get(verdict, "•"), label,
+    )
+
+
+@register.filter
+def label(value, vocabulary: str):
+    """The human label of a stored vocabulary value: {{ row.direction|label:"direction" }}."""
+    choices = VOCABULARIES[vocabulary]
+    if value in (None, ""):
+        return "—"
+    return choices(value).label if value in choices.values else value
+
+
+@register.filter
+def short_hash(value: str, length: int = 12) -> str:
+    return (value or "")[:length]
+
+
+@register.filter
+def percent(value, digits: int = 0):
+    if value is None:
+        return "—"
+    return f"{value * 100:.{digits}f} %"
+
+
+@register.filter
+def get_item(mapping, key):
+    return mapping.get(key) if mapping else None

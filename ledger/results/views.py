@@ -1,0 +1,104 @@
+"""Result and publication pages."""
+from django.contrib import messages
+from django.shortcuts import redirect
+from django.http import JsonResponse
+from django.views.generic import TemplateView, View
+
+from ledger.core.errors import ActionRefused
+from ledger.labs.mixins import StudyMixin
+from ledger.plans.models import PlanVersion, StudyState
+from ledger.plans.selectors import sealed_plan
+from ledger.plans.views import StudyActionView
+from ledger.results import services
+from ledger.results.checks import row_p_check
+from ledger.results.forms import PublicationForm, ResultEditor, ResultRowForm
+
+
+class ResultRecordView(StudyMixin, TemplateView):
+    capability = "can_record_results"
+    template_name = "results/result_record.html"
+
+    def current_plan(self) -> dict:
+        version = PlanVersion.objects.select_related("entry").get(study=self.study, number=self.study.plan_version)
+        return sealed_plan(version)
+
+    def get(self, request, *args, **kwargs):
+        if self.study.state != StudyState.COLLECTING:
+            messages.info(request, self.not_open_message())
+            return redirect(self.study.get_absolute_url())
+        return super().get(request, *args, **kwargs)
+
+    def not_open_message(self) -> str:
+        if self.study.state == StudyState.SEALED:
+            return "Record the start of data collection before recording results."
+        if self.study.state == StudyState.REPORTED:
+            return "Results for this study are already sealed."
+        return f"Results cannot be recorded for a study that is {self.study.get_state_display().lower()}."
+
+    def get_context_data(self, **kwargs):
+        context = super().get_context_data(**kwargs)
+        plan = self.current_plan()
+        context.setdefault("editor", ResultEditor(plan=plan))
+        context["plan"] = plan
+        return context
+
+    def post(self, request, *args, **kwargs):
+        if self.study.state != StudyState.COLLECTING:
+            messages.info(request, self.not_open_message())
+            return redirect(self.study.get_absolute_url())
+        editor = ResultEditor(plan=self.current_plan(), data=request.POST)
+        if not editor.is_valid():
+            messages.error(request, "Some fields need attention; nothing was sealed.")
+            return self.render_to_response(self.get_context_data(editor=editor))
+        rows = editor.cleaned_rows()
+        try:
+            result = services.result_record(
+                member=self.member, study=self.study, rows=rows, report=editor.report.cleaned_data,
+                confirm_checks=editor.report.cleaned_data["confirm_checks"],
+            )
+        except ActionRefused as refusal:
+            messages.error(request, refusal.message)
+            preview = services.result_preview(study=self.study, rows=rows)
+            return self.render_to_response(self.get_context_data(editor=editor, checks=preview.checks,
+                                                                 needs_confirmation=bool(preview.unconfirmed)))
+        messages.success(request, f"Results sealed as ledger entry #{result.entry.seq}.")
+        return redirect(self.study.get_absolute_url())
+
+
+class ResultCheckView(StudyMixin, View):
+    """Live p-value check of one result row, for the result form: JSON with one sentence."""
+
+    capability = "can_record_results"
+    http_method_names = ["get"]
+
+    def get(self, request, *args, **kwargs):
+        # The row's inputs arrive with their formset prefix ("rows-0-statistic"); keep the field name.
+        fields = {name.rsplit("-", 1)[-1]: value for name, value in request.GET.items()}
+        form = ResultRowForm(data=fields, outcome_choices=[(fields.get("outcome", ""), "")])
+        form.is_valid()
+        cleaned = {name: form.cleaned_data.get(name) for name in ("statistic_kind", "statistic", "df1", "df2",
+                                                                   "n_analysed", "sides", "alpha", "p_reported")}
+        if form.errors.keys() & cleaned.keys():
+            problems = "; ".join(f"{form.fields[n].label}: {' '.join(x.rstrip('.') for x in e)}" for n, e in form.errors.items() if n in cleaned)
+            return JsonResponse({"message": problems, "problem": True})
+        row = {
+            "key": "", "p_reported": cleaned["p_reported"], "n_analysed": cleaned["n_analysed"],
+            "sides": cleaned["sides"], "alpha": cleaned["alpha"],
+            "statistic": {"kind": cleaned["statistic_kind"], "value": cleaned["statistic"], "df1": cleaned["df1"],
+                          "df2": cleaned["df2"], "decimals": form.cleaned_data.get("statistic_decimals")}
+            if cleaned["statistic_kind"] else None,
+        }
+        check = row_p_check(row)
+        if check is None:
+            return JsonResponse({"message": "", "problem": False})
+        return JsonResponse({"message": check["explanation"], "problem": check["verdict"] != "consistent",
+                             "verdict": check["verdict"]})
+
+
+class PublicationLinkView(StudyActionView):
+    capability = "can_link_publications"
+    form_class = PublicationForm
+    success_message = "Publication status sealed."
+
+    def perform(self, data):
+        services.publication_link_add(member=self.member, study=self.study, status=data["status"], doi=data["doi"])

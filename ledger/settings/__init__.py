@@ -1,0 +1,1 @@
+"""Settings: ``base`` (embedded default and development), ``production``, ``test``."""
