@@ -3,6 +3,7 @@
 With no ``CELERY_BROKER_URL`` in the environment, tasks run eagerly in the calling process
 (see ``ledger.settings.base``), so the embedded quick-start needs no broker.
 """
+
 import os
 
 from celery import Celery

@@ -1,5 +1,6 @@
 """Test data builders. Objects with ledger state are made through the services, never by hand,
 so the projections (study state, versions) always agree with the entries."""
+
 from __future__ import annotations
 
 import datetime as dt
@@ -58,18 +59,49 @@ def complete_plan(**overrides: Any) -> dict[str, Any]:
     content.update(
         research_question="Does a low hum bias estimates of line length?",
         outcomes=[
-            {"key": "O1", "name": "Estimation error", "role": "primary", "measure": "Percent error", "unit": "%", "timepoint": "Session end"},
-            {"key": "O2", "name": "Confidence", "role": "secondary", "measure": "1-7 rating", "unit": "", "timepoint": "Session end"},
+            {
+                "key": "O1",
+                "name": "Estimation error",
+                "role": "primary",
+                "measure": "Percent error",
+                "unit": "%",
+                "timepoint": "Session end",
+            },
+            {
+                "key": "O2",
+                "name": "Confidence",
+                "role": "secondary",
+                "measure": "1-7 rating",
+                "unit": "",
+                "timepoint": "Session end",
+            },
         ],
-        hypotheses=[{
-            "key": "H1", "statement": "The hum increases estimation error.", "direction": "increase", "outcome": "O1",
-            "test_family": "t_independent", "test_description": "", "alpha": 0.05, "sides": "two",
-            "multiplicity": "none", "covariates": "",
-        }],
+        hypotheses=[
+            {
+                "key": "H1",
+                "statement": "The hum increases estimation error.",
+                "direction": "increase",
+                "outcome": "O1",
+                "test_family": "t_independent",
+                "test_description": "",
+                "alpha": 0.05,
+                "sides": "two",
+                "multiplicity": "none",
+                "covariates": "",
+            }
+        ],
         design={"arms": "Hum vs silence", "allocation": "randomised", "blinding": "assessors"},
         sample_size={
-            "planned_n": 128, "stopping_rule": "Stop at N", "power_design": "t_independent", "effect_size": 0.5,
-            "alpha": 0.05, "target_power": 0.8, "sides": "two", "groups": None, "chi_df": None, "justification": "Pilot",
+            "planned_n": 128,
+            "stopping_rule": "Stop at N",
+            "power_design": "t_independent",
+            "effect_size": 0.5,
+            "alpha": 0.05,
+            "target_power": 0.8,
+            "sides": "two",
+            "groups": None,
+            "chi_df": None,
+            "justification": "Pilot",
         },
         exclusion_rules="Exclude sessions with >20% missing trials.",
         support_criterion="p < .05 in the predicted direction.",
@@ -105,19 +137,39 @@ def collecting_study(*, member: Membership, started_on: dt.date | None = None, *
 def result_row(**overrides: Any) -> dict[str, Any]:
     """A cleaned result row, as ResultRowForm produces it: by default a null result on H1/O1."""
     row = {
-        "hypothesis": "H1", "outcome": "O1", "outcome_name": "", "reported_as": "primary", "direction": "increase",
-        "test_family": "t_independent", "test_description": "", "sides": "two", "alpha": 0.05,
-        "multiplicity": "none", "statistic_kind": "t", "statistic": 0.84, "df1": 126.0, "df2": None,
-        "p_reported": "0.40", "effect_kind": "d", "effect_value": 0.15, "ci_low": -0.2, "ci_high": 0.5,
-        "n_analysed": 128, "verdict": "null", "comment": "",
+        "hypothesis": "H1",
+        "outcome": "O1",
+        "outcome_name": "",
+        "reported_as": "primary",
+        "direction": "increase",
+        "test_family": "t_independent",
+        "test_description": "",
+        "sides": "two",
+        "alpha": 0.05,
+        "multiplicity": "none",
+        "statistic_kind": "t",
+        "statistic": 0.84,
+        "df1": 126.0,
+        "df2": None,
+        "p_reported": "0.40",
+        "effect_kind": "d",
+        "effect_value": 0.15,
+        "ci_low": -0.2,
+        "ci_high": 0.5,
+        "n_analysed": 128,
+        "verdict": "null",
+        "comment": "",
     }
     row.update(overrides)
     return row
 
 
 REPORT_AS_PLANNED = {
-    "stopping_rule_followed": True, "stopping_note": "", "exclusions_as_planned": True,
-    "exclusions_applied": "", "summary": "",
+    "stopping_rule_followed": True,
+    "stopping_note": "",
+    "exclusions_as_planned": True,
+    "exclusions_applied": "",
+    "summary": "",
 }
 
 

@@ -11,6 +11,7 @@ entry_hash      = hex(SHA-256(entry preimage))
 
 DEVELOPERS.md repeats this with a worked example; change both together, and bump "v".
 """
+
 import datetime as dt
 import hashlib
 import json

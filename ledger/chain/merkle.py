@@ -93,9 +93,7 @@ def _require_count(name: str, value: int, *, minimum: int) -> None:
 
 def _require_hash(name: str, value: object, *, error: type[ValueError] = ValueError) -> None:
     if not isinstance(value, (bytes, bytearray)) or len(value) != HASH_SIZE:
-        shown = (
-            f"{len(value)} bytes" if isinstance(value, (bytes, bytearray)) else type(value).__name__
-        )
+        shown = f"{len(value)} bytes" if isinstance(value, (bytes, bytearray)) else type(value).__name__
         raise error(f"{name} must be a {HASH_SIZE}-byte SHA-256 hash; got {shown}")
 
 
@@ -186,9 +184,7 @@ def fold_subtree_hashes(hashes: Sequence[bytes]) -> bytes:
     leftmost piece pairs with the hash of everything to its right.
     """
     if not hashes:
-        raise ValueError(
-            "nothing to fold: pass at least one subtree hash (use EMPTY_ROOT for an empty tree)"
-        )
+        raise ValueError("nothing to fold: pass at least one subtree hash (use EMPTY_ROOT for an empty tree)")
     folded = hashes[-1]
     for left in reversed(hashes[:-1]):
         folded = node_hash(left=left, right=folded)
@@ -247,10 +243,7 @@ def inclusion_proof_plan(*, index: int, size: int) -> ProofPlan:
     _require_count("size", size, minimum=1)
     _require_count("index", index, minimum=0)
     if index >= size:
-        raise ValueError(
-            "index must be below size (leaves are numbered 0..size-1);"
-            f" got index {index}, size {size}"
-        )
+        raise ValueError(f"index must be below size (leaves are numbered 0..size-1); got index {index}, size {size}")
     return _plan_for(_inclusion_ranges(index, size))
 
 
@@ -263,8 +256,7 @@ def consistency_proof_plan(*, old_size: int, new_size: int) -> ProofPlan:
     _require_count("new_size", new_size, minimum=0)
     if old_size > new_size:
         raise ValueError(
-            "old_size must not exceed new_size (a log only grows);"
-            f" got old_size {old_size}, new_size {new_size}"
+            f"old_size must not exceed new_size (a log only grows); got old_size {old_size}, new_size {new_size}"
         )
     return _plan_for(_consistency_ranges(old_size, new_size))
 
@@ -319,9 +311,7 @@ def _require_proof_count(name: str, value: object) -> None:
         raise ProofError(f"{name} must be a non-negative integer; got {value!r}")
 
 
-def root_from_inclusion_proof(
-    *, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes]
-) -> bytes:
+def root_from_inclusion_proof(*, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes]) -> bytes:
     """The root that ``proof`` implies for ``leaf_hash`` at ``index`` in a tree of ``size``.
 
     RFC 9162 section 2.1.3.2 steps 1-4 plus the ``sn == 0`` test of step 5; raises
@@ -338,9 +328,7 @@ def root_from_inclusion_proof(
     first_node, last_node, computed = index, size - 1, bytes(leaf_hash)
     for element in proof:
         if last_node == 0:
-            raise ProofError(
-                f"proof has more hashes than an inclusion proof for index {index} of size {size}"
-            )
+            raise ProofError(f"proof has more hashes than an inclusion proof for index {index} of size {size}")
         if first_node & 1 or first_node == last_node:
             computed = node_hash(left=element, right=computed)
             # On the right edge a node without a right sibling is promoted unchanged, so
@@ -353,22 +341,16 @@ def root_from_inclusion_proof(
         first_node >>= 1
         last_node >>= 1
     if last_node != 0:
-        raise ProofError(
-            f"proof has fewer hashes than an inclusion proof for index {index} of size {size}"
-        )
+        raise ProofError(f"proof has fewer hashes than an inclusion proof for index {index} of size {size}")
     return computed
 
 
-def check_inclusion(
-    *, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes], root: bytes
-) -> None:
+def check_inclusion(*, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes], root: bytes) -> None:
     """Raise ``ProofError`` unless ``proof`` shows ``leaf_hash`` at ``index`` under ``root``."""
     _require_hash("root", root, error=ProofError)
     computed = root_from_inclusion_proof(leaf_hash=leaf_hash, index=index, size=size, proof=proof)
     if computed != root:
-        raise ProofError(
-            f"inclusion proof for index {index} of size {size} leads to a different root"
-        )
+        raise ProofError(f"inclusion proof for index {index} of size {size} leads to a different root")
 
 
 def _roots_from_consistency_proof(
@@ -388,9 +370,7 @@ def _roots_from_consistency_proof(
     old_computed = new_computed = path[0]
     for element in path[1:]:
         if last_node == 0:
-            raise ProofError(
-                f"proof has more hashes than a consistency proof from {old_size} to {new_size}"
-            )
+            raise ProofError(f"proof has more hashes than a consistency proof from {old_size} to {new_size}")
         if first_node & 1 or first_node == last_node:
             old_computed = node_hash(left=element, right=old_computed)
             new_computed = node_hash(left=element, right=new_computed)
@@ -402,9 +382,7 @@ def _roots_from_consistency_proof(
         first_node >>= 1
         last_node >>= 1
     if last_node != 0:
-        raise ProofError(
-            f"proof has fewer hashes than a consistency proof from {old_size} to {new_size}"
-        )
+        raise ProofError(f"proof has fewer hashes than a consistency proof from {old_size} to {new_size}")
     return old_computed, new_computed
 
 
@@ -428,9 +406,7 @@ def check_consistency(
 
     if old_size == 0 or old_size == new_size:
         if proof:
-            raise ProofError(
-                f"a consistency proof from size {old_size} to {new_size} must be empty"
-            )
+            raise ProofError(f"a consistency proof from size {old_size} to {new_size} must be empty")
         if old_size == 0 and old_root != EMPTY_ROOT:
             raise ProofError("the root of an empty tree must be EMPTY_ROOT, SHA-256 of no bytes")
         if old_size == new_size and old_root != new_root:
@@ -443,9 +419,7 @@ def check_consistency(
         raise ProofError(f"consistency proof does not lead to the root given for size {new_size}")
 
 
-def verify_inclusion(
-    *, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes], root: bytes
-) -> bool:
+def verify_inclusion(*, leaf_hash: bytes, index: int, size: int, proof: Sequence[bytes], root: bytes) -> bool:
     """``check_inclusion`` as a boolean: never raises for bad input."""
     try:
         check_inclusion(leaf_hash=leaf_hash, index=index, size=size, proof=proof, root=root)
@@ -459,9 +433,7 @@ def verify_consistency(
 ) -> bool:
     """``check_consistency`` as a boolean: never raises for bad input."""
     try:
-        check_consistency(
-            old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof
-        )
+        check_consistency(old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof)
     except ProofError:
         return False
     return True

@@ -3,6 +3,7 @@
 Entries are written only by ``ledger.chain.services.entry_append``. Python refuses every update
 or delete path below; the database refuses them too (triggers in ``ledger.chain.triggers``).
 """
+
 from django.conf import settings
 from django.db import models
 
@@ -42,7 +43,9 @@ class AppendOnlyModel(models.Model):
 
     def save(self, *args, **kwargs):
         if not self._state.adding:
-            raise LedgerImmutableError(f"{type(self).__name__} rows are append-only: a stored row cannot be saved again.")
+            raise LedgerImmutableError(
+                f"{type(self).__name__} rows are append-only: a stored row cannot be saved again."
+            )
         kwargs["force_insert"] = True
         super().save(*args, **kwargs)
 

@@ -127,9 +127,7 @@ def _decode_canonical_base64(text: str, *, what: str, error: type[NoteError]) ->
     try:
         raw = base64.b64decode(text, validate=True)
     except (binascii.Error, ValueError):
-        raise error(
-            f"{what} is not standard base64 (RFC 4648 section 4, with padding): {text!r}"
-        ) from None
+        raise error(f"{what} is not standard base64 (RFC 4648 section 4, with padding): {text!r}") from None
     if base64.b64encode(raw).decode("ascii") != text:
         raise error(f"{what} is not in canonical base64 form; re-encode it: {text!r}")
     return raw
@@ -149,9 +147,7 @@ def _encode_key_data(key: bytes) -> str:
 
 def ed25519_key_id(*, name: str, public_key: bytes) -> int:
     """SHA-256(name || 0x0A || 0x01 || public key)[:4] as a big-endian integer (signed-note)."""
-    digest = hashlib.sha256(
-        name.encode("utf-8") + b"\n" + bytes([ED25519_SIGNATURE_TYPE]) + bytes(public_key)
-    ).digest()
+    digest = hashlib.sha256(name.encode("utf-8") + b"\n" + bytes([ED25519_SIGNATURE_TYPE]) + bytes(public_key)).digest()
     return int.from_bytes(digest[:4], "big")
 
 
@@ -174,13 +170,10 @@ def _parse_key_fields(fields: list[str], *, what: str, layout: str) -> tuple[str
     raw = _decode_canonical_base64(encoded, what=f"{what} key data", error=KeyFormatError)
     if not raw or raw[0] != ED25519_SIGNATURE_TYPE:
         found = f"0x{raw[0]:02x}" if raw else "nothing"
-        raise KeyFormatError(
-            f"{what} has signature type {found}; only Ed25519 (0x01) keys are supported"
-        )
+        raise KeyFormatError(f"{what} has signature type {found}; only Ed25519 (0x01) keys are supported")
     if len(raw) != 1 + _ED25519_KEY_SIZE:
         raise KeyFormatError(
-            f"{what} holds {len(raw) - 1} key bytes after the type byte;"
-            f" Ed25519 keys are {_ED25519_KEY_SIZE}"
+            f"{what} holds {len(raw) - 1} key bytes after the type byte; Ed25519 keys are {_ED25519_KEY_SIZE}"
         )
     return name, int(key_id_hex, 16), raw[1:]
 
@@ -195,9 +188,7 @@ class NoteVerifier:
     def __post_init__(self):
         _require_key_name(self.name)
         if not isinstance(self.public_key, bytes) or len(self.public_key) != _ED25519_KEY_SIZE:
-            raise KeyFormatError(
-                f"an Ed25519 public key is {_ED25519_KEY_SIZE} bytes; got {self.public_key!r}"
-            )
+            raise KeyFormatError(f"an Ed25519 public key is {_ED25519_KEY_SIZE} bytes; got {self.public_key!r}")
 
     @property
     def key_id(self) -> int:
@@ -210,9 +201,7 @@ class NoteVerifier:
             raise KeyFormatError(f"a verifier key is a string; got {type(verifier_key).__name__}")
         layout = "<name>+<8 hex digits>+<base64 of 0x01 and the 32-byte public key>"
         # maxsplit: the base64 part may itself contain '+'; names and IDs never do.
-        name, key_id, public_key = _parse_key_fields(
-            verifier_key.split("+", 2), what="verifier key", layout=layout
-        )
+        name, key_id, public_key = _parse_key_fields(verifier_key.split("+", 2), what="verifier key", layout=layout)
         verifier = cls(name=name, public_key=public_key)
         if verifier.key_id != key_id:
             raise KeyFormatError(
@@ -244,9 +233,7 @@ class NoteSigner:
         self.name = name
         self._seed = seed
         self._private_key = Ed25519PrivateKey.from_private_bytes(seed)
-        self.verifier = NoteVerifier(
-            name=name, public_key=self._private_key.public_key().public_bytes_raw()
-        )
+        self.verifier = NoteVerifier(name=name, public_key=self._private_key.public_key().public_bytes_raw())
 
     def __repr__(self) -> str:  # never show the seed
         return f"NoteSigner(name={self.name!r}, key_id={self.key_id:08x})"
@@ -332,19 +319,13 @@ def sign_note(*, text: str, signer: NoteSigner) -> str:
 def _parse_signature_line(line: str, *, number: int) -> NoteSignature:
     where = f"signature line {number}"
     if not line.startswith(_SIGNATURE_PREFIX):
-        raise MalformedNoteError(
-            f"{where} must start with an em dash (U+2014) and a space: {line!r}"
-        )
+        raise MalformedNoteError(f"{where} must start with an em dash (U+2014) and a space: {line!r}")
     name, separator, encoded = line[len(_SIGNATURE_PREFIX) :].partition(" ")
     if not separator or not is_valid_key_name(name):
-        raise MalformedNoteError(
-            f"{where} must be '— <key name> <base64 signature>' with a valid key name: {line!r}"
-        )
+        raise MalformedNoteError(f"{where} must be '— <key name> <base64 signature>' with a valid key name: {line!r}")
     raw = _decode_canonical_base64(encoded, what=where, error=MalformedNoteError)
     if len(raw) < 5:
-        raise MalformedNoteError(
-            f"{where} holds {len(raw)} bytes; it needs a 4-byte key ID and a signature"
-        )
+        raise MalformedNoteError(f"{where} holds {len(raw)} bytes; it needs a 4-byte key ID and a signature")
     return NoteSignature(name=name, key_id=int.from_bytes(raw[:4], "big"), encoded=encoded)
 
 
@@ -360,12 +341,8 @@ def _split_note(note: str) -> tuple[str, list[NoteSignature]]:
         raise MalformedNoteError("the signature lines must be non-empty and end with a newline")
     lines = block[:-1].split("\n")
     if len(lines) > MAX_SIGNATURES:
-        raise MalformedNoteError(
-            f"note has {len(lines)} signature lines; at most {MAX_SIGNATURES} are accepted"
-        )
-    return text, [
-        _parse_signature_line(line, number=number) for number, line in enumerate(lines, start=1)
-    ]
+        raise MalformedNoteError(f"note has {len(lines)} signature lines; at most {MAX_SIGNATURES} are accepted")
+    return text, [_parse_signature_line(line, number=number) for number, line in enumerate(lines, start=1)]
 
 
 def _index_verifiers(verifiers: Iterable[NoteVerifier]) -> dict[tuple[str, int], NoteVerifier]:
@@ -390,9 +367,7 @@ def open_note(*, note: str | bytes, verifiers: Iterable[NoteVerifier]) -> Opened
         try:
             note = note.decode("utf-8")
         except UnicodeDecodeError as exc:
-            raise MalformedNoteError(
-                f"note is not valid UTF-8 (byte {exc.start}); signed notes are UTF-8"
-            ) from None
+            raise MalformedNoteError(f"note is not valid UTF-8 (byte {exc.start}); signed notes are UTF-8") from None
     if not isinstance(note, str):
         raise MalformedNoteError(f"note must be str or bytes; got {type(note).__name__}")
     _reject_forbidden_characters(note, what="note", error=MalformedNoteError)
@@ -449,9 +424,7 @@ def _require_checkpoint_line(value: object, *, what: str) -> None:
     _reject_forbidden_characters(value, what=what, error=CheckpointFormatError)
 
 
-def format_checkpoint(
-    *, origin: str, size: int, root_hash: bytes, extensions: Sequence[str] = ()
-) -> str:
+def format_checkpoint(*, origin: str, size: int, root_hash: bytes, extensions: Sequence[str] = ()) -> str:
     """The checkpoint note text: origin, decimal tree size, base64 root hash, extension lines.
 
     The spec recommends (without requiring) an origin that is a schema-less URL with no
@@ -459,26 +432,18 @@ def format_checkpoint(
     """
     _require_checkpoint_line(origin, what="origin")
     if not isinstance(size, int) or isinstance(size, bool) or not 0 <= size <= MAX_TREE_SIZE:
-        raise CheckpointFormatError(
-            f"tree size must be an integer from 0 to 2**64 - 1; got {size!r}"
-        )
+        raise CheckpointFormatError(f"tree size must be an integer from 0 to 2**64 - 1; got {size!r}")
     if not isinstance(root_hash, bytes) or len(root_hash) != _ROOT_HASH_SIZE:
-        raise CheckpointFormatError(
-            f"root hash must be {_ROOT_HASH_SIZE} bytes (SHA-256); got {root_hash!r}"
-        )
+        raise CheckpointFormatError(f"root hash must be {_ROOT_HASH_SIZE} bytes (SHA-256); got {root_hash!r}")
     for number, extension in enumerate(extensions, start=1):
         _require_checkpoint_line(extension, what=f"extension line {number}")
-    return "".join(
-        f"{line}\n" for line in [origin, str(size), _encode_base64(root_hash), *extensions]
-    )
+    return "".join(f"{line}\n" for line in [origin, str(size), _encode_base64(root_hash), *extensions])
 
 
 def parse_checkpoint(text: str) -> Checkpoint:
     """Parse and validate a checkpoint note text (as returned in ``OpenedNote.text``)."""
     if not isinstance(text, str) or not text.endswith("\n"):
-        raise CheckpointFormatError(
-            "a checkpoint is note text and must end with a newline (U+000A)"
-        )
+        raise CheckpointFormatError("a checkpoint is note text and must end with a newline (U+000A)")
     lines = text[:-1].split("\n")
     if len(lines) < 3:
         raise CheckpointFormatError(
@@ -499,9 +464,5 @@ def parse_checkpoint(text: str) -> Checkpoint:
         )
     root_hash = _decode_canonical_base64(root_text, what="root hash", error=CheckpointFormatError)
     if len(root_hash) != _ROOT_HASH_SIZE:
-        raise CheckpointFormatError(
-            f"root hash must decode to {_ROOT_HASH_SIZE} bytes; got {len(root_hash)}"
-        )
-    return Checkpoint(
-        origin=origin, size=int(size_text), root_hash=root_hash, extensions=tuple(extensions)
-    )
+        raise CheckpointFormatError(f"root hash must decode to {_ROOT_HASH_SIZE} bytes; got {len(root_hash)}")
+    return Checkpoint(origin=origin, size=int(size_text), root_hash=root_hash, extensions=tuple(extensions))

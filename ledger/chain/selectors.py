@@ -1,4 +1,5 @@
 """Reads of the ledger for pages: always scoped to one lab or one study."""
+
 from __future__ import annotations
 
 import json
@@ -23,7 +24,9 @@ def lab_entries(*, lab: Lab, kind: str = "") -> QuerySet[Entry]:
 
 
 def access_entry(*, member: Membership, entry_hash: str) -> Entry:
-    entry = Entry.objects.filter(lab=member.lab, entry_hash=entry_hash.lower()).select_related("author", "study").first()
+    entry = (
+        Entry.objects.filter(lab=member.lab, entry_hash=entry_hash.lower()).select_related("author", "study").first()
+    )
     if entry is None:
         raise Http404("No such entry in this lab.")
     return entry

@@ -4,6 +4,7 @@
 be called inside the caller's transaction, so that a domain change (a study becoming sealed)
 and the entry that justifies it commit together or not at all.
 """
+
 from __future__ import annotations
 
 import datetime as dt

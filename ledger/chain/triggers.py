@@ -75,7 +75,10 @@ POSTGRES_TRIGGERS = {
     "chain_merklenode_refuse_change": ("chain_merklenode", "BEFORE UPDATE OR DELETE", "ROW", "forebook_refuse_change"),
     "chain_merklenode_refuse_truncate": ("chain_merklenode", "BEFORE TRUNCATE", "STATEMENT", "forebook_refuse_change"),
     "chain_chainhead_matches_tip": (
-        "chain_chainhead", "BEFORE INSERT OR UPDATE OR DELETE", "ROW", "forebook_head_matches_tip",
+        "chain_chainhead",
+        "BEFORE INSERT OR UPDATE OR DELETE",
+        "ROW",
+        "forebook_head_matches_tip",
     ),
     "chain_chainhead_refuse_truncate": ("chain_chainhead", "BEFORE TRUNCATE", "STATEMENT", "forebook_refuse_change"),
 }
@@ -143,8 +146,7 @@ def install_statements(vendor: str) -> list[str]:
             ]
         return statements
     raise NotImplementedError(
-        f"Forebook's ledger triggers exist for PostgreSQL and SQLite, not {vendor!r}; "
-        "use one of those databases."
+        f"Forebook's ledger triggers exist for PostgreSQL and SQLite, not {vendor!r}; use one of those databases."
     )
 
 

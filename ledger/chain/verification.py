@@ -4,6 +4,7 @@ Streams the entries in sequence order (constant memory), recomputing each payloa
 entry hash and each link, and the Merkle root over all entry hashes; then compares the result with
 the chain head and the stored subtree hashes.
 """
+
 from __future__ import annotations
 
 import hashlib
@@ -19,8 +20,16 @@ from ledger.chain.services import decode_frontier
 
 STREAM_CHUNK = 5000
 ENTRY_COLUMNS = (
-    "seq", "kind", "lab_uid", "study_code", "author_id", "created_at",
-    "payload", "payload_hash", "prev_hash", "entry_hash",
+    "seq",
+    "kind",
+    "lab_uid",
+    "study_code",
+    "author_id",
+    "created_at",
+    "payload",
+    "payload_hash",
+    "prev_hash",
+    "entry_hash",
 )
 
 
@@ -48,14 +57,26 @@ def verify_rows(
     frontier: list[bytes] = []
     for seq, kind, lab_uid, study_code, author_id, created_at, payload, payload_hash, stored_prev, entry_hash in rows:
         problem = _row_problem(
-            expected_seq=expected_seq, prev_hash=prev_hash, seq=seq, kind=kind, lab_uid=lab_uid,
-            study_code=study_code, author_id=author_id, created_at=created_at, payload=payload,
-            payload_hash=payload_hash, stored_prev=stored_prev, entry_hash=entry_hash,
+            expected_seq=expected_seq,
+            prev_hash=prev_hash,
+            seq=seq,
+            kind=kind,
+            lab_uid=lab_uid,
+            study_code=study_code,
+            author_id=author_id,
+            created_at=created_at,
+            payload=payload,
+            payload_hash=payload_hash,
+            stored_prev=stored_prev,
+            entry_hash=entry_hash,
         )
         if problem:
             return VerificationReport(
-                count=expected_seq - 1, head_hash=prev_hash, root_hash=merkle.root_from_frontier(frontier),
-                bad_seq=seq, problem=problem,
+                count=expected_seq - 1,
+                head_hash=prev_hash,
+                root_hash=merkle.root_from_frontier(frontier),
+                bad_seq=seq,
+                problem=problem,
             )
         frontier, _nodes = merkle.frontier_append(
             frontier=frontier, size=seq - 1, leaf=merkle.leaf_hash(bytes.fromhex(entry_hash))
@@ -64,11 +85,14 @@ def verify_rows(
         expected_seq += 1
         if progress is not None and seq % STREAM_CHUNK == 0:
             progress(seq)
-    return VerificationReport(count=expected_seq - 1, head_hash=prev_hash, root_hash=merkle.root_from_frontier(frontier))
+    return VerificationReport(
+        count=expected_seq - 1, head_hash=prev_hash, root_hash=merkle.root_from_frontier(frontier)
+    )
 
 
-def _row_problem(*, expected_seq: int, prev_hash: str, seq: int, payload: str, stored_prev: str,
-                 entry_hash: str, **header) -> str:
+def _row_problem(
+    *, expected_seq: int, prev_hash: str, seq: int, payload: str, stored_prev: str, entry_hash: str, **header
+) -> str:
     if seq != expected_seq:
         return f"sequence number {seq} found where {expected_seq} was expected (an entry is missing or was inserted)"
     if hashlib.sha256(payload.encode("utf-8")).hexdigest() != header["payload_hash"]:
@@ -76,10 +100,7 @@ def _row_problem(*, expected_seq: int, prev_hash: str, seq: int, payload: str, s
     if stored_prev != prev_hash:
         return f"prev_hash does not equal the hash of entry {seq - 1} (the chain was broken or reordered)"
     if hashlib.sha256(entry_header_bytes(seq=seq, prev_hash=stored_prev, **header)).hexdigest() != entry_hash:
-        return (
-            "the entry hash does not match its header "
-            "(sequence, kind, lab, study, author, time or link was changed)"
-        )
+        return "the entry hash does not match its header (sequence, kind, lab, study, author, time or link was changed)"
     return ""
 
 
@@ -105,7 +126,9 @@ def verify_ledger(*, progress: Callable[[int], None] | None = None) -> Verificat
     except merkle.MissingNodeError as error:
         return _with_problem(report, f"a stored Merkle subtree hash is missing ({error}); proofs cannot be served")
     if stored_root != report.root_hash:
-        return _with_problem(report, "the stored Merkle subtree hashes do not match the entries (proofs would be wrong)")
+        return _with_problem(
+            report, "the stored Merkle subtree hashes do not match the entries (proofs would be wrong)"
+        )
     return report
 
 

@@ -1,4 +1,5 @@
 """Ledger pages inside a lab: the list of the lab's entries and one entry with its hashes."""
+
 import json
 
 from django.core.paginator import Paginator

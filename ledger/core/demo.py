@@ -4,6 +4,7 @@ The Lantern Row Perception Lab and everyone in it are fictional. The studies cov
 of the lifecycle, several null results, an amendment, a withdrawal and one study whose reported
 primary outcome is not the one that was registered.
 """
+
 from __future__ import annotations
 
 import datetime as dt
@@ -54,43 +55,178 @@ class DemoStudy:
 
 
 STUDIES = [
-    DemoStudy("Birdsong playback and simple reaction time", "Does recorded birdsong in the testing room shorten simple reaction times?",
-              "Median simple reaction time (ms)", "Self-rated alertness", "t_independent", 0.4, 200, "draft"),
-    DemoStudy("Screen colour temperature and proofreading errors", "Do warmer screen colours change how many planted typos are caught?",
-              "Planted typos detected (of 40)", "Reading time", "t_paired", 0.35, 70, "draft", investigator="lumi"),
-    DemoStudy("Fidget objects and sustained attention", "Does holding a fidget object reduce lapses in a 20-minute vigilance task?",
-              "Lapses (responses slower than 500 ms)", "Self-rated boredom", "t_independent", 0.5, 128, "sealed", amend=True),
-    DemoStudy("Peppermint scent and mental rotation", "Does peppermint scent speed up mental rotation judgements?",
-              "Mean correct response time (ms)", "Accuracy", "t_independent", 0.45, 160, "sealed", investigator="lumi"),
-    DemoStudy("Standing desks and working-memory span", "Do people standing at a desk reach longer digit spans than sitting?",
-              "Backward digit span", "Forward digit span", "t_paired", 0.3, 90, "collecting"),
-    DemoStudy("Handwritten or typed notes and next-day recall", "Do handwritten lecture notes lead to better recall a day later?",
-              "Free-recall idea units", "Recognition accuracy", "t_independent", 0.4, 200, "collecting", investigator="lumi",
-              started_days_before_seal=12),
-    DemoStudy("Spaced quizzes and retention of invented words", "Do three spaced quizzes improve one-week retention of invented vocabulary?",
-              "Words recalled after one week (of 30)", "Quiz enjoyment", "t_independent", 0.5, 128, "reported",
-              verdict="supported", statistic=3.12, p="0.002", publication="10.55555/lantern.2026.014"),
-    DemoStudy("Background hum pitch and length estimation", "Does a low background hum bias estimates of line length?",
-              "Estimation error (%)", "Confidence", "t_independent", 0.4, 200, "reported",
-              verdict="null", statistic=0.61, p="0.54", publication="not_submitted"),
-    DemoStudy("Evening gratitude notes and sleep onset", "Does writing three gratitude notes before bed shorten sleep onset?",
-              "Sleep onset latency from actigraphy (min)", "Sleep quality rating", "t_independent", 0.35, 260, "reported",
-              investigator="lumi", verdict="null", statistic=-0.88, p="0.38"),
-    DemoStudy("Desk plants and error monitoring", "Do desk plants change the number of self-corrected errors in data entry?",
-              "Self-corrected errors per 100 entries", "Uncorrected errors", "t_independent", 0.4, 200, "reported",
-              verdict="null", statistic=1.21, p="0.23"),
-    DemoStudy("Time-pressure cues and estimation of quantities", "Does a visible countdown make quantity estimates more accurate?",
-              "Absolute estimation error", "Response time", "t_independent", 0.4, 200, "reported",
-              verdict="opposite", statistic=-2.35, p="0.020"),
-    DemoStudy("Music tempo and puzzle persistence", "Does fast-tempo music change how long people persist on an unsolvable puzzle?",
-              "Persistence time (s)", "Puzzle enjoyment", "t_independent", 0.3, 350, "reported", investigator="lumi",
-              verdict="inconclusive", statistic=1.71, p="0.09"),
-    DemoStudy("Font weight and memory for shopping lists", "Are items printed in a heavier font remembered better?",
-              "Items recalled (of 20)", "Recall order accuracy", "t_independent", 0.4, 200, "reported",
-              verdict="supported", statistic=2.41, p="0.017", switch_primary=True),
-    DemoStudy("Cold-water hand immersion and colour-word interference", "Does a brief cold-water hand immersion reduce colour-word interference?",
-              "Interference effect (ms)", "Error rate", "t_paired", 0.35, 70, "withdrawn",
-              withdraw_reason="The ethics approval for the immersion procedure lapsed before any data were collected."),
+    DemoStudy(
+        "Birdsong playback and simple reaction time",
+        "Does recorded birdsong in the testing room shorten simple reaction times?",
+        "Median simple reaction time (ms)",
+        "Self-rated alertness",
+        "t_independent",
+        0.4,
+        200,
+        "draft",
+    ),
+    DemoStudy(
+        "Screen colour temperature and proofreading errors",
+        "Do warmer screen colours change how many planted typos are caught?",
+        "Planted typos detected (of 40)",
+        "Reading time",
+        "t_paired",
+        0.35,
+        70,
+        "draft",
+        investigator="lumi",
+    ),
+    DemoStudy(
+        "Fidget objects and sustained attention",
+        "Does holding a fidget object reduce lapses in a 20-minute vigilance task?",
+        "Lapses (responses slower than 500 ms)",
+        "Self-rated boredom",
+        "t_independent",
+        0.5,
+        128,
+        "sealed",
+        amend=True,
+    ),
+    DemoStudy(
+        "Peppermint scent and mental rotation",
+        "Does peppermint scent speed up mental rotation judgements?",
+        "Mean correct response time (ms)",
+        "Accuracy",
+        "t_independent",
+        0.45,
+        160,
+        "sealed",
+        investigator="lumi",
+    ),
+    DemoStudy(
+        "Standing desks and working-memory span",
+        "Do people standing at a desk reach longer digit spans than sitting?",
+        "Backward digit span",
+        "Forward digit span",
+        "t_paired",
+        0.3,
+        90,
+        "collecting",
+    ),
+    DemoStudy(
+        "Handwritten or typed notes and next-day recall",
+        "Do handwritten lecture notes lead to better recall a day later?",
+        "Free-recall idea units",
+        "Recognition accuracy",
+        "t_independent",
+        0.4,
+        200,
+        "collecting",
+        investigator="lumi",
+        started_days_before_seal=12,
+    ),
+    DemoStudy(
+        "Spaced quizzes and retention of invented words",
+        "Do three spaced quizzes improve one-week retention of invented vocabulary?",
+        "Words recalled after one week (of 30)",
+        "Quiz enjoyment",
+        "t_independent",
+        0.5,
+        128,
+        "reported",
+        verdict="supported",
+        statistic=3.12,
+        p="0.002",
+        publication="10.55555/lantern.2026.014",
+    ),
+    DemoStudy(
+        "Background hum pitch and length estimation",
+        "Does a low background hum bias estimates of line length?",
+        "Estimation error (%)",
+        "Confidence",
+        "t_independent",
+        0.4,
+        200,
+        "reported",
+        verdict="null",
+        statistic=0.61,
+        p="0.54",
+        publication="not_submitted",
+    ),
+    DemoStudy(
+        "Evening gratitude notes and sleep onset",
+        "Does writing three gratitude notes before bed shorten sleep onset?",
+        "Sleep onset latency from actigraphy (min)",
+        "Sleep quality rating",
+        "t_independent",
+        0.35,
+        260,
+        "reported",
+        investigator="lumi",
+        verdict="null",
+        statistic=-0.88,
+        p="0.38",
+    ),
+    DemoStudy(
+        "Desk plants and error monitoring",
+        "Do desk plants change the number of self-corrected errors in data entry?",
+        "Self-corrected errors per 100 entries",
+        "Uncorrected errors",
+        "t_independent",
+        0.4,
+        200,
+        "reported",
+        verdict="null",
+        statistic=1.21,
+        p="0.23",
+    ),
+    DemoStudy(
+        "Time-pressure cues and estimation of quantities",
+        "Does a visible countdown make quantity estimates more accurate?",
+        "Absolute estimation error",
+        "Response time",
+        "t_independent",
+        0.4,
+        200,
+        "reported",
+        verdict="opposite",
+        statistic=-2.35,
+        p="0.020",
+    ),
+    DemoStudy(
+        "Music tempo and puzzle persistence",
+        "Does fast-tempo music change how long people persist on an unsolvable puzzle?",
+        "Persistence time (s)",
+        "Puzzle enjoyment",
+        "t_independent",
+        0.3,
+        350,
+        "reported",
+        investigator="lumi",
+        verdict="inconclusive",
+        statistic=1.71,
+        p="0.09",
+    ),
+    DemoStudy(
+        "Font weight and memory for shopping lists",
+        "Are items printed in a heavier font remembered better?",
+        "Items recalled (of 20)",
+        "Recall order accuracy",
+        "t_independent",
+        0.4,
+        200,
+        "reported",
+        verdict="supported",
+        statistic=2.41,
+        p="0.017",
+        switch_primary=True,
+    ),
+    DemoStudy(
+        "Cold-water hand immersion and colour-word interference",
+        "Does a brief cold-water hand immersion reduce colour-word interference?",
+        "Interference effect (ms)",
+        "Error rate",
+        "t_paired",
+        0.35,
+        70,
+        "withdrawn",
+        withdraw_reason="The ethics approval for the immersion procedure lapsed before any data were collected.",
+    ),
 ]
 
 
@@ -100,23 +236,57 @@ def demo_plan(spec: DemoStudy, *, today: dt.date) -> dict[str, Any]:
     content.update(
         research_question=spec.question,
         outcomes=[
-            {"key": "O1", "name": spec.outcome, "role": "primary", "measure": "Computer-based task in the lab booth", "unit": "", "timepoint": "End of session"},
-            {"key": "O2", "name": spec.secondary, "role": "secondary", "measure": "Questionnaire after the task", "unit": "", "timepoint": "End of session"},
+            {
+                "key": "O1",
+                "name": spec.outcome,
+                "role": "primary",
+                "measure": "Computer-based task in the lab booth",
+                "unit": "",
+                "timepoint": "End of session",
+            },
+            {
+                "key": "O2",
+                "name": spec.secondary,
+                "role": "secondary",
+                "measure": "Questionnaire after the task",
+                "unit": "",
+                "timepoint": "End of session",
+            },
         ],
-        hypotheses=[{
-            "key": "H1", "statement": f"{spec.question[:-1]} (predicted: yes).", "direction": "differ", "outcome": "O1",
-            "test_family": spec.design, "test_description": "", "alpha": 0.05, "sides": "two",
-            "multiplicity": "none", "covariates": "",
-        }],
+        hypotheses=[
+            {
+                "key": "H1",
+                "statement": f"{spec.question[:-1]} (predicted: yes).",
+                "direction": "differ",
+                "outcome": "O1",
+                "test_family": spec.design,
+                "test_description": "",
+                "alpha": 0.05,
+                "sides": "two",
+                "multiplicity": "none",
+                "covariates": "",
+            }
+        ],
         design={"arms": "Condition vs. matched control", "allocation": "randomised", "blinding": "assessors"},
         sample_size={
-            "planned_n": spec.planned_n, "stopping_rule": "Stop at the planned N.", "power_design": spec.design,
-            "effect_size": spec.effect, "alpha": 0.05, "target_power": 0.8, "sides": "two", "groups": None,
-            "chi_df": None, "justification": "Smallest effect the lab considers worth acting on.",
+            "planned_n": spec.planned_n,
+            "stopping_rule": "Stop at the planned N.",
+            "power_design": spec.design,
+            "effect_size": spec.effect,
+            "alpha": 0.05,
+            "target_power": 0.8,
+            "sides": "two",
+            "groups": None,
+            "chi_df": None,
+            "justification": "Smallest effect the lab considers worth acting on.",
         },
         exclusion_rules="Exclude sessions with more than 20 % missing trials.",
         support_criterion="Two-sided p below .05 in the predicted direction.",
-        dates={"collection_start": start.isoformat(), "completion": (start + dt.timedelta(days=180)).isoformat(), "embargo_until": ""},
+        dates={
+            "collection_start": start.isoformat(),
+            "completion": (start + dt.timedelta(days=180)).isoformat(),
+            "embargo_until": "",
+        },
         investigators=[{"name": "Maren Quillfeather", "orcid": "0000-0001-5000-0007"}],
     )
     return content
@@ -125,15 +295,34 @@ def demo_plan(spec: DemoStudy, *, today: dt.date) -> dict[str, Any]:
 def result_rows(spec: DemoStudy) -> list[dict[str, Any]]:
     df = spec.planned_n - 2
     primary = {
-        "hypothesis": "H1", "outcome": "O1", "outcome_name": "", "reported_as": "primary", "direction": "differ",
-        "test_family": spec.design, "test_description": "", "sides": "two", "alpha": 0.05, "multiplicity": "none",
-        "statistic_kind": "t", "statistic": spec.statistic, "df1": df, "df2": None, "p_reported": spec.p,
-        "effect_kind": "d", "effect_value": round(2 * spec.statistic / (df ** 0.5), 2), "ci_low": None, "ci_high": None,
-        "n_analysed": spec.planned_n, "verdict": spec.verdict, "comment": "",
+        "hypothesis": "H1",
+        "outcome": "O1",
+        "outcome_name": "",
+        "reported_as": "primary",
+        "direction": "differ",
+        "test_family": spec.design,
+        "test_description": "",
+        "sides": "two",
+        "alpha": 0.05,
+        "multiplicity": "none",
+        "statistic_kind": "t",
+        "statistic": spec.statistic,
+        "df1": df,
+        "df2": None,
+        "p_reported": spec.p,
+        "effect_kind": "d",
+        "effect_value": round(2 * spec.statistic / (df**0.5), 2),
+        "ci_low": None,
+        "ci_high": None,
+        "n_analysed": spec.planned_n,
+        "verdict": spec.verdict,
+        "comment": "",
     }
     if spec.switch_primary:
         # The registered primary outcome (O1) goes unreported; the secondary one is reported as primary.
-        return [{**primary, "hypothesis": "", "outcome": "O2", "comment": "Reported as the main result in the write-up."}]
+        return [
+            {**primary, "hypothesis": "", "outcome": "O2", "comment": "Reported as the main result in the write-up."}
+        ]
     return [primary]
 
 
@@ -148,7 +337,8 @@ def build_demo(*, today: dt.date | None = None) -> tuple[Lab, list[Study], bool]
     users = {}
     for username, first, last, _role, _orcid in PEOPLE:
         user, created = User.objects.get_or_create(
-            username=username, defaults={"first_name": first, "last_name": last, "email": f"{username}@lantern-row.invalid"}
+            username=username,
+            defaults={"first_name": first, "last_name": last, "email": f"{username}@lantern-row.invalid"},
         )
         if created:
             user.set_password(DEMO_PASSWORD)
@@ -157,7 +347,7 @@ def build_demo(*, today: dt.date | None = None) -> tuple[Lab, list[Study], bool]
     lab = lab_create(user=users["maren"], name="Lantern Row Perception Lab", slug=DEMO_LAB_SLUG)
     manager = Membership.objects.get(lab=lab, user=users["maren"])
     members = {"maren": manager}
-    for username, _first, _last, role, orcid in PEOPLE[1:]:
+    for username, _first, _last, role, _orcid in PEOPLE[1:]:
         members[username] = member_add(manager=manager, user=users[username], role=role)
     for username, *_rest, orcid in PEOPLE:
         if orcid:
@@ -178,11 +368,19 @@ def _build_study(spec: DemoStudy, *, manager: Membership, investigator: Membersh
     if spec.amend:
         draft = plan_services.plan_amendment_begin(member=investigator, study=study)
         content = dict(draft.content)
-        content["sample_size"] = {**content["sample_size"], "planned_n": spec.planned_n + 40,
-                                  "justification": "Raised N after a pilot showed more lapses variance than expected."}
+        content["sample_size"] = {
+            **content["sample_size"],
+            "planned_n": spec.planned_n + 40,
+            "justification": "Raised N after a pilot showed more lapses variance than expected.",
+        }
         draft = plan_services.plan_draft_save(member=investigator, study=study, content=content)
-        plan_services.plan_seal(member=investigator, study=study, revision=draft.revision, acknowledge_warnings=True,
-                                amendment_reason="A pilot of 12 sessions showed larger variance; N raised by 40.")
+        plan_services.plan_seal(
+            member=investigator,
+            study=study,
+            revision=draft.revision,
+            acknowledge_warnings=True,
+            amendment_reason="A pilot of 12 sessions showed larger variance; N raised by 40.",
+        )
         study.refresh_from_db()
     if spec.target == "withdrawn":
         plan_services.study_withdraw(member=manager, study=study, reason=spec.withdraw_reason)
@@ -197,8 +395,13 @@ def _build_study(spec: DemoStudy, *, manager: Membership, investigator: Membersh
         member=investigator,
         study=study,
         rows=result_rows(spec),
-        report={"stopping_rule_followed": True, "stopping_note": "", "exclusions_as_planned": True,
-                "exclusions_applied": "", "summary": ""},
+        report={
+            "stopping_rule_followed": True,
+            "stopping_note": "",
+            "exclusions_as_planned": True,
+            "exclusions_applied": "",
+            "summary": "",
+        },
     )
     if spec.publication:
         status = "not_submitted" if spec.publication == "not_submitted" else "published"

@@ -1,4 +1,5 @@
 """Form fields with the error messages Forebook wants people to see."""
+
 import math
 
 from django import forms
@@ -79,7 +80,9 @@ class OrcidField(forms.CharField):
     def __init__(self, **kwargs):
         kwargs.setdefault("max_length", 19)
         kwargs.setdefault("required", False)
-        kwargs.setdefault("widget", forms.TextInput(attrs={"placeholder": "0000-0000-0000-0000", "spellcheck": "false"}))
+        kwargs.setdefault(
+            "widget", forms.TextInput(attrs={"placeholder": "0000-0000-0000-0000", "spellcheck": "false"})
+        )
         super().__init__(**kwargs)
 
     def clean(self, value):

@@ -2,6 +2,7 @@
 
 Pure functions: no Django, so the statistics-free parts of the app and the tests can share them.
 """
+
 import re
 import secrets
 
@@ -48,7 +49,7 @@ def normalise_doi(value: str) -> str:
     text = value.strip()
     for prefix in DOI_URL_PREFIXES:
         if text.lower().startswith(prefix):
-            return text[len(prefix):]
+            return text[len(prefix) :]
     return text
 
 

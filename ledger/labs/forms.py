@@ -8,7 +8,9 @@ from ledger.labs.models import Lab, Role
 class LabCreateForm(forms.Form):
     name = forms.CharField(max_length=200)
     slug = forms.SlugField(
-        label="Short name for addresses", max_length=50, required=False,
+        label="Short name for addresses",
+        max_length=50,
+        required=False,
         help_text="Letters, digits and hyphens; made from the name when left empty.",
     )
 
@@ -26,11 +28,15 @@ class MemberRoleForm(forms.Form):
 class LabSettingsForm(forms.Form):
     name = forms.CharField(max_length=200)
     sample_size_tolerance_pct = forms.IntegerField(
-        label="Sample-size tolerance (%)", min_value=0, max_value=100,
+        label="Sample-size tolerance (%)",
+        min_value=0,
+        max_value=100,
         help_text=Lab._meta.get_field("sample_size_tolerance_pct").help_text,
     )
     overdue_grace_months = forms.IntegerField(
-        label="Grace period for results (months)", min_value=0, max_value=120,
+        label="Grace period for results (months)",
+        min_value=0,
+        max_value=120,
         help_text=Lab._meta.get_field("overdue_grace_months").help_text,
     )
 

@@ -3,6 +3,7 @@
 Order of answers: anonymous -> redirect to sign-in; not a member of the lab in the URL (or no
 such lab) -> 404; a member whose role lacks the capability -> 403.
 """
+
 from django.contrib.auth.mixins import LoginRequiredMixin
 from django.core.exceptions import PermissionDenied
 

@@ -5,6 +5,7 @@ member is one of the study's investigators: a lab manager may act on every study
 investigator only on the studies they are on, a reader on none. Views ask through
 ``member_can``; nothing else in the code compares roles.
 """
+
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
@@ -47,6 +48,8 @@ def member_can(member: Membership, capability: str, *, study: Study | None = Non
         raise ValueError(f"Unknown capability {capability!r}; add it to ledger/labs/permissions.py.")
     if study is None:
         raise ValueError(f"{capability} is a study capability: pass the study.")
+    if study.lab_id != member.lab_id:
+        return False
     if member.role == Role.MANAGER:
         return True
     if capability in MANAGER_ONLY_STUDY_CAPABILITIES or member.role != Role.INVESTIGATOR:

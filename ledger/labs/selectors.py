@@ -1,4 +1,5 @@
 """Reads for labs and memberships. Every lab-scoped read starts from a membership."""
+
 from django.http import Http404
 
 from ledger.labs.models import Lab, Membership, Role
@@ -9,9 +10,7 @@ def access_membership(*, user, lab_slug: str) -> Membership:
     if not user.is_authenticated:
         raise Http404("No such lab.")
     member = (
-        Membership.objects.select_related("lab", "user")
-        .filter(user=user, lab__slug=lab_slug, is_active=True)
-        .first()
+        Membership.objects.select_related("lab", "user").filter(user=user, lab__slug=lab_slug, is_active=True).first()
     )
     if member is None:
         raise Http404("No such lab.")

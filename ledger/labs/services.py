@@ -1,4 +1,5 @@
 """Writes for labs and memberships."""
+
 from django.contrib.auth import get_user_model
 from django.contrib.auth.tokens import default_token_generator
 from django.core.exceptions import PermissionDenied
@@ -81,7 +82,9 @@ def member_remove(*, manager: Membership, member: Membership) -> Membership:
 
 
 def _is_last_manager(member: Membership) -> bool:
-    return not Membership.objects.filter(lab=member.lab, role=Role.MANAGER, is_active=True).exclude(pk=member.pk).exists()
+    return (
+        not Membership.objects.filter(lab=member.lab, role=Role.MANAGER, is_active=True).exclude(pk=member.pk).exists()
+    )
 
 
 def _record_role_change(*, actor: Membership, member: Membership, previous_role: str, new_role: str) -> None:
@@ -114,10 +117,18 @@ def member_invite(*, manager: Membership, email: str, name: str, role: str, base
         user.set_unusable_password()
         user.save(update_fields=["password"])
     member = member_add(manager=manager, user=user, role=role)
-    link = base_url + reverse(
-        "password_reset_confirm",
-        kwargs={"uidb64": urlsafe_base64_encode(force_bytes(user.pk)), "token": default_token_generator.make_token(user)},
-    ) if created else base_url + reverse("home")
+    link = (
+        base_url
+        + reverse(
+            "password_reset_confirm",
+            kwargs={
+                "uidb64": urlsafe_base64_encode(force_bytes(user.pk)),
+                "token": default_token_generator.make_token(user),
+            },
+        )
+        if created
+        else base_url + reverse("home")
+    )
     lab_name = manager.lab.name
     message = (
         f"{manager.display_name} added you to {lab_name} on Forebook as {member.get_role_display().lower()}.\n\n"

@@ -1,4 +1,5 @@
 """Lab pages: the home redirect, creating a lab, the dashboard and the member list."""
+
 from django.contrib import messages
 from django.contrib.auth import login
 from django.contrib.auth.mixins import LoginRequiredMixin

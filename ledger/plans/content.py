@@ -17,6 +17,7 @@ copy of the sealed plan and two versions can be compared field by field.
 The sealed payload adds ``schema``, ``study``, ``version``, ``computed`` figures, ``warnings``
 and, for an amendment, ``amendment: {reason, amends_version, amends_entry}``.
 """
+
 from __future__ import annotations
 
 import datetime as dt
@@ -43,8 +44,16 @@ DESIGN_FIELDS = ("arms", "allocation", "blinding")
 DATE_FIELDS = ("collection_start", "completion", "embargo_until")
 TEXT_FIELDS = ("title", "research_question", "exclusion_rules", "support_criterion")
 HYPOTHESIS_FIELDS = (
-    "key", "statement", "direction", "outcome", "test_family", "test_description",
-    "alpha", "sides", "multiplicity", "covariates",
+    "key",
+    "statement",
+    "direction",
+    "outcome",
+    "test_family",
+    "test_description",
+    "alpha",
+    "sides",
+    "multiplicity",
+    "covariates",
 )
 OUTCOME_FIELDS = ("key", "name", "role", "measure", "unit", "timepoint")
 INVESTIGATOR_FIELDS = ("name", "orcid")
@@ -90,9 +99,7 @@ def content_from_forms(*, plan: dict, outcomes: list[dict], hypotheses: list[dic
     for field in TEXT_FIELDS:
         content[field] = (plan.get(field) or "").strip()
     content["design"] = {field: plan.get(field) or "" for field in DESIGN_FIELDS}
-    content["sample_size"] = {
-        key: _none_if_blank(plan.get(field)) for field, key in SAMPLE_SIZE_FIELDS.items()
-    }
+    content["sample_size"] = {key: _none_if_blank(plan.get(field)) for field, key in SAMPLE_SIZE_FIELDS.items()}
     for text_key in ("stopping_rule", "justification", "power_design", "sides"):
         content["sample_size"][text_key] = content["sample_size"][text_key] or ""
     content["dates"] = {field: _iso(plan.get(field)) for field in DATE_FIELDS}

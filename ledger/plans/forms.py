@@ -4,15 +4,23 @@ A draft may be saved incomplete: fields are optional here, and what sealing need
 ``ledger.plans.content.plan_problems`` when the plan is reviewed. What is entered must still be
 well-formed (finite numbers, valid ORCID iDs, dates in order) before it is kept.
 """
+
 import re
 
 from django import forms
 from django.core.exceptions import ValidationError
 
-from ledger.plans import content as plan_content
 from ledger.core.fields import FiniteFloatField, OrcidField, PositiveCountField, ProbabilityField
+from ledger.plans import content as plan_content
 from ledger.plans.vocabulary import (
-    Allocation, Blinding, Direction, Multiplicity, OutcomeRole, PowerDesign, Sides, TestFamily,
+    Allocation,
+    Blinding,
+    Direction,
+    Multiplicity,
+    OutcomeRole,
+    PowerDesign,
+    Sides,
+    TestFamily,
 )
 
 TEXTAREA_SHORT = forms.Textarea(attrs={"rows": 2})
@@ -28,7 +36,9 @@ def blank_choice(choices) -> list[tuple[str, str]]:
 class StudyEnrolForm(forms.Form):
     title = forms.CharField(max_length=300, help_text="A working title; you can change it until the plan is sealed.")
     investigators = forms.ModelMultipleChoiceField(
-        queryset=None, required=False, widget=forms.CheckboxSelectMultiple,
+        queryset=None,
+        required=False,
+        widget=forms.CheckboxSelectMultiple,
         help_text="Members who will draft, seal and report this study.",
     )
 
@@ -44,19 +54,25 @@ class PlanForm(forms.Form):
     title = forms.CharField(max_length=300)
     research_question = forms.CharField(required=False, widget=TEXTAREA, max_length=5000)
     arms = forms.CharField(
-        label="Conditions or groups", required=False, widget=TEXTAREA_SHORT, max_length=5000,
+        label="Conditions or groups",
+        required=False,
+        widget=TEXTAREA_SHORT,
+        max_length=5000,
         help_text="What each group or condition receives or does.",
     )
     allocation = forms.ChoiceField(choices=blank_choice(Allocation.choices), required=False)
     blinding = forms.ChoiceField(choices=blank_choice(Blinding.choices), required=False)
     planned_n = PositiveCountField(label="Planned N (total)", required=False)
     stopping_rule = forms.CharField(
-        required=False, widget=TEXTAREA_SHORT, max_length=5000,
+        required=False,
+        widget=TEXTAREA_SHORT,
+        max_length=5000,
         help_text="When data collection stops: at the planned N, a date, a sequential rule …",
     )
     power_design = forms.ChoiceField(label="Power computed for", choices=PowerDesign.choices, required=False)
     effect_size = FiniteFloatField(
-        label="Target effect size", required=False,
+        label="Target effect size",
+        required=False,
         widget=forms.NumberInput(attrs={"step": "any", "inputmode": "decimal"}),
         help_text="On the scale of the design: d, h, r, f or w.",
     )
@@ -66,17 +82,25 @@ class PlanForm(forms.Form):
     groups = forms.IntegerField(label="Groups (ANOVA)", min_value=2, max_value=1000, required=False)
     chi_df = forms.IntegerField(label="Degrees of freedom (chi-square)", min_value=1, max_value=10000, required=False)
     justification = forms.CharField(
-        label="Justification in words", required=False, widget=TEXTAREA_SHORT, max_length=5000,
+        label="Justification in words",
+        required=False,
+        widget=TEXTAREA_SHORT,
+        max_length=5000,
         help_text="Where the target effect comes from (pilot data, earlier studies, smallest effect of interest).",
     )
     exclusion_rules = forms.CharField(required=False, widget=TEXTAREA, max_length=5000)
     support_criterion = forms.CharField(
-        label="What result counts as support", required=False, widget=TEXTAREA_SHORT, max_length=5000,
+        label="What result counts as support",
+        required=False,
+        widget=TEXTAREA_SHORT,
+        max_length=5000,
     )
     collection_start = forms.DateField(label="Planned start of data collection", required=False, widget=DATE_INPUT)
     completion = forms.DateField(label="Expected completion (results due)", required=False, widget=DATE_INPUT)
     embargo_until = forms.DateField(
-        label="Embargo until", required=False, widget=DATE_INPUT,
+        label="Embargo until",
+        required=False,
+        widget=DATE_INPUT,
         help_text="Optional: the plan's content stays out of public records until this date.",
     )
 
@@ -88,7 +112,16 @@ class PlanForm(forms.Form):
         return cleaned
 
 
-SAMPLE_SIZE_FORM_FIELDS = ("planned_n", "power_design", "effect_size", "ss_alpha", "target_power", "ss_sides", "groups", "chi_df")
+SAMPLE_SIZE_FORM_FIELDS = (
+    "planned_n",
+    "power_design",
+    "effect_size",
+    "ss_alpha",
+    "target_power",
+    "ss_sides",
+    "groups",
+    "chi_df",
+)
 
 
 class PowerPreviewForm(forms.Form):
@@ -131,7 +164,9 @@ class HypothesisForm(KeyedForm):
     test_description = forms.CharField(label="Test details", required=False, max_length=2000)
     alpha = ProbabilityField(required=False, initial=0.05)
     sides = forms.ChoiceField(choices=Sides.choices, initial=Sides.TWO)
-    multiplicity = forms.ChoiceField(label="Multiplicity correction", choices=Multiplicity.choices, initial=Multiplicity.NONE)
+    multiplicity = forms.ChoiceField(
+        label="Multiplicity correction", choices=Multiplicity.choices, initial=Multiplicity.NONE
+    )
     covariates = forms.CharField(required=False, max_length=2000)
 
     def __init__(self, *args, outcome_choices=(), **kwargs):
@@ -166,7 +201,9 @@ class BaseKeyedFormSet(forms.BaseFormSet):
             seen.add(key)
 
 
-OutcomeFormSet = forms.formset_factory(OutcomeForm, formset=BaseKeyedFormSet, extra=0, can_delete=True, max_num=50, validate_max=True)
+OutcomeFormSet = forms.formset_factory(
+    OutcomeForm, formset=BaseKeyedFormSet, extra=0, can_delete=True, max_num=50, validate_max=True
+)
 HypothesisFormSet = forms.formset_factory(
     HypothesisForm, formset=BaseKeyedFormSet, extra=0, can_delete=True, max_num=50, validate_max=True
 )
@@ -198,13 +235,16 @@ class SealForm(forms.Form):
 
 class CollectionStartForm(forms.Form):
     started_on = forms.DateField(
-        label="Data collection started on", widget=DATE_INPUT,
+        label="Data collection started on",
+        widget=DATE_INPUT,
         help_text="The real first day of data collection, even if it was before the plan was sealed.",
     )
 
 
 class WithdrawForm(forms.Form):
-    reason = forms.CharField(widget=TEXTAREA_SHORT, max_length=5000, help_text="Sealed with the withdrawal and shown on the study.")
+    reason = forms.CharField(
+        widget=TEXTAREA_SHORT, max_length=5000, help_text="Sealed with the withdrawal and shown on the study."
+    )
 
 
 class PlanEditor:
@@ -240,7 +280,9 @@ class PlanEditor:
 
     def content(self) -> dict:
         def kept(formset):
-            return [form.cleaned_data for form in formset.forms if form.cleaned_data and form not in formset.deleted_forms]
+            return [
+                form.cleaned_data for form in formset.forms if form.cleaned_data and form not in formset.deleted_forms
+            ]
 
         return plan_content.content_from_forms(
             plan=self.plan.cleaned_data,

@@ -3,6 +3,7 @@
 A ``Study`` row is a projection: its state and dates are updated by the services in the same
 transaction as the ledger entry that justifies them, and can be rebuilt from the entries.
 """
+
 from django.conf import settings
 from django.db import models
 from django.urls import reverse

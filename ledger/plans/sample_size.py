@@ -3,6 +3,7 @@
 The computed figures and any warning are sealed with the plan, beside the inputs they came from,
 so a reader of the record sees both what was claimed and what the numbers give.
 """
+
 from __future__ import annotations
 
 from typing import Any

@@ -1,4 +1,5 @@
 """Reads for studies and plans, always scoped to the asking member's lab."""
+
 from __future__ import annotations
 
 import json

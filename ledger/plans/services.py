@@ -3,6 +3,7 @@
 Every transition locks the study row first, so two tabs (or a retried request) cannot both
 perform it: the second finds the study already moved on and is refused with a message.
 """
+
 from __future__ import annotations
 
 import datetime as dt
@@ -128,7 +129,11 @@ def plan_seal(
             "amends_entry": previous.entry.entry_hash,
         }
     payload = plan_content.sealed_payload(
-        content=content, study_code=study.code, version=version, computed=computed, warnings=warnings,
+        content=content,
+        study_code=study.code,
+        version=version,
+        computed=computed,
+        warnings=warnings,
         amendment=amendment,
     )
     entry = entry_append(

@@ -1,4 +1,5 @@
 """Study and plan pages. Each view validates input and calls one service."""
+
 from django.contrib import messages
 from django.http import Http404, JsonResponse
 from django.shortcuts import redirect
@@ -6,21 +7,30 @@ from django.urls import reverse
 from django.views.generic import FormView, TemplateView, View
 
 from ledger.chain.selectors import entry_payload, study_entries
-
 from ledger.core.errors import ActionRefused
 from ledger.labs.mixins import LabMemberMixin, StudyMixin
-from ledger.results.selectors import study_result
-from ledger.stats.errors import StatsInputError
 from ledger.plans import services
 from ledger.plans.content import plan_problems
 from ledger.plans.forms import (
-    CollectionStartForm, PlanEditor, PowerPreviewForm, SealForm, StudyEnrolForm, WithdrawForm,
+    CollectionStartForm,
+    PlanEditor,
+    PowerPreviewForm,
+    SealForm,
+    StudyEnrolForm,
+    WithdrawForm,
 )
 from ledger.plans.models import StudyState
 from ledger.plans.sample_size import falls_short, power_figures, power_inputs, power_sentence, sample_size_assessment
 from ledger.plans.selectors import (
-    access_plan_version, plan_diff, plan_versions, sealed_plan, studies_visible_to, study_draft,
+    access_plan_version,
+    plan_diff,
+    plan_versions,
+    sealed_plan,
+    studies_visible_to,
+    study_draft,
 )
+from ledger.results.selectors import study_result
+from ledger.stats.errors import StatsInputError
 
 
 class StudyListView(LabMemberMixin, TemplateView):
@@ -50,7 +60,8 @@ class StudyEnrolView(LabMemberMixin, FormView):
     def form_valid(self, form):
         try:
             study = services.study_enrol(
-                member=self.member, title=form.cleaned_data["title"],
+                member=self.member,
+                title=form.cleaned_data["title"],
                 investigators=list(form.cleaned_data["investigators"]),
             )
         except ActionRefused as refusal:
@@ -174,9 +185,7 @@ class PlanReviewView(StudyMixin, TemplateView):
             else:
                 form.add_error(None, refusal.message)
             return self.render_to_response(self.get_context_data(form=form))
-        messages.success(
-            request, f"Plan version {version.number} sealed as ledger entry #{version.entry.seq}."
-        )
+        messages.success(request, f"Plan version {version.number} sealed as ledger entry #{version.entry.seq}.")
         return redirect(self.study.get_absolute_url())
 
 
@@ -288,18 +297,33 @@ class PowerPreviewView(StudyMixin, View):
     def get(self, request, *args, **kwargs):
         form = PowerPreviewForm(request.GET)
         if not form.is_valid():
-            problems = "; ".join(f"{form.fields[name].label}: {' '.join(e.rstrip('.') for e in errors)}" for name, errors in form.errors.items())
+            problems = "; ".join(
+                f"{form.fields[name].label}: {' '.join(e.rstrip('.') for e in errors)}"
+                for name, errors in form.errors.items()
+            )
             return JsonResponse({"message": problems, "problem": True})
         data = form.cleaned_data
-        inputs = power_inputs({
-            "power_design": data["power_design"], "effect_size": data["effect_size"], "alpha": data["ss_alpha"],
-            "sides": data["ss_sides"], "planned_n": data["planned_n"], "groups": data["groups"], "chi_df": data["chi_df"],
-        })
+        inputs = power_inputs(
+            {
+                "power_design": data["power_design"],
+                "effect_size": data["effect_size"],
+                "alpha": data["ss_alpha"],
+                "sides": data["ss_sides"],
+                "planned_n": data["planned_n"],
+                "groups": data["groups"],
+                "chi_df": data["chi_df"],
+            }
+        )
         if inputs is None:
             return JsonResponse({"message": "", "problem": False})
         try:
             figures = power_figures(inputs)
         except StatsInputError as error:
             return JsonResponse({"message": f"Power cannot be computed yet: {error}.", "problem": True})
-        return JsonResponse({"message": power_sentence(inputs, figures, target=data["target_power"]),
-                             "problem": falls_short(figures, data["target_power"]), "figures": figures})
+        return JsonResponse(
+            {
+                "message": power_sentence(inputs, figures, target=data["target_power"]),
+                "problem": falls_short(figures, data["target_power"]),
+                "figures": figures,
+            }
+        )

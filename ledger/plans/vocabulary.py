@@ -1,4 +1,5 @@
 """The fixed vocabularies of a plan. Stored values are short and stable; labels are for people."""
+
 from django.db import models
 
 

@@ -3,6 +3,7 @@
 The outcome of every check is sealed with the result, so a reader sees what Forebook found at
 the moment of sealing, and whether the investigator confirmed a flagged value.
 """
+
 from __future__ import annotations
 
 from decimal import Decimal, InvalidOperation

@@ -10,6 +10,7 @@
 ``hypothesis`` and ``outcome`` hold plan keys ("" when the row has none, or reports an outcome
 that is not in the plan, named in ``outcome_name``).
 """
+
 from __future__ import annotations
 
 from typing import Any
@@ -20,8 +21,16 @@ RESULT_SCHEMA = "forebook.result/1"
 # The outcome choice for a row that reports an outcome the plan did not register.
 UNPLANNED = "__unplanned__"
 ROW_TEXT_FIELDS = (
-    "hypothesis", "reported_as", "direction", "test_family", "test_description", "sides",
-    "multiplicity", "p_reported", "verdict", "comment",
+    "hypothesis",
+    "reported_as",
+    "direction",
+    "test_family",
+    "test_description",
+    "sides",
+    "multiplicity",
+    "p_reported",
+    "verdict",
+    "comment",
 )
 
 
@@ -48,8 +57,17 @@ def initial_rows(plan: dict[str, Any]) -> list[dict[str, Any]]:
         )
     for key, outcome in outcomes.items():
         if key not in covered:
-            rows.append({"hypothesis": "", "outcome": key, "reported_as": outcome.get("role"), "direction": "differ",
-                         "sides": "two", "alpha": 0.05, "multiplicity": "none"})
+            rows.append(
+                {
+                    "hypothesis": "",
+                    "outcome": key,
+                    "reported_as": outcome.get("role"),
+                    "direction": "differ",
+                    "sides": "two",
+                    "alpha": 0.05,
+                    "multiplicity": "none",
+                }
+            )
     return rows
 
 
@@ -94,8 +112,14 @@ def primary_row(rows: list[dict[str, Any]]) -> dict[str, Any]:
 
 
 def result_payload(
-    *, study_code: str, plan_version: int, plan_entry: str, rows: list[dict[str, Any]], report: dict[str, Any],
-    checks: list[dict[str, Any]] | None = None, findings: list[dict[str, Any]] | None = None,
+    *,
+    study_code: str,
+    plan_version: int,
+    plan_entry: str,
+    rows: list[dict[str, Any]],
+    report: dict[str, Any],
+    checks: list[dict[str, Any]] | None = None,
+    findings: list[dict[str, Any]] | None = None,
 ) -> dict[str, Any]:
     return {
         "schema": RESULT_SCHEMA,

@@ -1,4 +1,5 @@
 """The result form: one row per hypothesis or outcome, plus what happened to the plan's rules."""
+
 from django import forms
 from django.core.exceptions import ValidationError
 
@@ -19,7 +20,9 @@ class ResultRowForm(forms.Form):
     hypothesis = forms.ChoiceField(required=False, choices=())
     outcome = forms.ChoiceField(choices=())
     outcome_name = forms.CharField(
-        label="Outcome name (not in the plan)", required=False, max_length=300,
+        label="Outcome name (not in the plan)",
+        required=False,
+        max_length=300,
     )
     reported_as = forms.ChoiceField(label="Reported as", choices=OutcomeRole.choices)
     direction = forms.ChoiceField(label="Direction tested", choices=Direction.choices)
@@ -33,7 +36,9 @@ class ResultRowForm(forms.Form):
     df1 = DegreesOfFreedomField(label="df", required=False, widget=NUMBER)
     df2 = DegreesOfFreedomField(label="df (denominator)", required=False, widget=NUMBER)
     p_reported = forms.CharField(
-        label="p as reported", required=False, max_length=40,
+        label="p as reported",
+        required=False,
+        max_length=40,
         widget=forms.TextInput(attrs={"placeholder": "0.21, < .001, n.s.", "spellcheck": "false"}),
     )
     effect_kind = forms.ChoiceField(label="Effect size", choices=EffectKind.choices, required=False)
@@ -103,14 +108,19 @@ class ResultReportForm(forms.Form):
         choices=[("yes", "Yes, as planned"), ("no", "No")],
         coerce=lambda value: value == "yes",
     )
-    stopping_note = forms.CharField(label="What happened instead", required=False, max_length=5000, widget=TEXTAREA_SHORT)
+    stopping_note = forms.CharField(
+        label="What happened instead", required=False, max_length=5000, widget=TEXTAREA_SHORT
+    )
     exclusions_as_planned = forms.TypedChoiceField(
         label="Were the exclusion rules applied as planned?",
         choices=[("yes", "Yes, as planned"), ("no", "No, they changed")],
         coerce=lambda value: value == "yes",
     )
     exclusions_applied = forms.CharField(
-        label="Exclusions as applied", required=False, max_length=5000, widget=TEXTAREA_SHORT,
+        label="Exclusions as applied",
+        required=False,
+        max_length=5000,
+        widget=TEXTAREA_SHORT,
     )
     summary = forms.CharField(label="Summary (optional)", required=False, max_length=10000, widget=TEXTAREA_SHORT)
     confirm_checks = forms.BooleanField(

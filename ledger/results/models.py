@@ -1,4 +1,5 @@
 """Projections of result and publication entries, for listing and reporting."""
+
 from django.db import models
 
 

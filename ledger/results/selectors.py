@@ -1,4 +1,5 @@
 """Reads of results, scoped to a lab."""
+
 from ledger.labs.models import Lab
 from ledger.results.models import ResultReport
 

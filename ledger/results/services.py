@@ -1,4 +1,5 @@
 """Writes for results and publication links."""
+
 from __future__ import annotations
 
 from dataclasses import dataclass

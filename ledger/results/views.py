@@ -1,7 +1,8 @@
 """Result and publication pages."""
+
 from django.contrib import messages
-from django.shortcuts import redirect
 from django.http import JsonResponse
+from django.shortcuts import redirect
 from django.views.generic import TemplateView, View
 
 from ledger.core.errors import ActionRefused
@@ -53,14 +54,20 @@ class ResultRecordView(StudyMixin, TemplateView):
         rows = editor.cleaned_rows()
         try:
             result = services.result_record(
-                member=self.member, study=self.study, rows=rows, report=editor.report.cleaned_data,
+                member=self.member,
+                study=self.study,
+                rows=rows,
+                report=editor.report.cleaned_data,
                 confirm_checks=editor.report.cleaned_data["confirm_checks"],
             )
         except ActionRefused as refusal:
             messages.error(request, refusal.message)
             preview = services.result_preview(study=self.study, rows=rows)
-            return self.render_to_response(self.get_context_data(editor=editor, checks=preview.checks,
-                                                                 needs_confirmation=bool(preview.unconfirmed)))
+            return self.render_to_response(
+                self.get_context_data(
+                    editor=editor, checks=preview.checks, needs_confirmation=bool(preview.unconfirmed)
+                )
+            )
         messages.success(request, f"Results sealed as ledger entry #{result.entry.seq}.")
         return redirect(self.study.get_absolute_url())
 
@@ -76,23 +83,39 @@ class ResultCheckView(StudyMixin, View):
         fields = {name.rsplit("-", 1)[-1]: value for name, value in request.GET.items()}
         form = ResultRowForm(data=fields, outcome_choices=[(fields.get("outcome", ""), "")])
         form.is_valid()
-        cleaned = {name: form.cleaned_data.get(name) for name in ("statistic_kind", "statistic", "df1", "df2",
-                                                                   "n_analysed", "sides", "alpha", "p_reported")}
+        cleaned = {
+            name: form.cleaned_data.get(name)
+            for name in ("statistic_kind", "statistic", "df1", "df2", "n_analysed", "sides", "alpha", "p_reported")
+        }
         if form.errors.keys() & cleaned.keys():
-            problems = "; ".join(f"{form.fields[n].label}: {' '.join(x.rstrip('.') for x in e)}" for n, e in form.errors.items() if n in cleaned)
+            problems = "; ".join(
+                f"{form.fields[n].label}: {' '.join(x.rstrip('.') for x in e)}"
+                for n, e in form.errors.items()
+                if n in cleaned
+            )
             return JsonResponse({"message": problems, "problem": True})
         row = {
-            "key": "", "p_reported": cleaned["p_reported"], "n_analysed": cleaned["n_analysed"],
-            "sides": cleaned["sides"], "alpha": cleaned["alpha"],
-            "statistic": {"kind": cleaned["statistic_kind"], "value": cleaned["statistic"], "df1": cleaned["df1"],
-                          "df2": cleaned["df2"], "decimals": form.cleaned_data.get("statistic_decimals")}
-            if cleaned["statistic_kind"] else None,
+            "key": "",
+            "p_reported": cleaned["p_reported"],
+            "n_analysed": cleaned["n_analysed"],
+            "sides": cleaned["sides"],
+            "alpha": cleaned["alpha"],
+            "statistic": {
+                "kind": cleaned["statistic_kind"],
+                "value": cleaned["statistic"],
+                "df1": cleaned["df1"],
+                "df2": cleaned["df2"],
+                "decimals": form.cleaned_data.get("statistic_decimals"),
+            }
+            if cleaned["statistic_kind"]
+            else None,
         }
         check = row_p_check(row)
         if check is None:
             return JsonResponse({"message": "", "problem": False})
-        return JsonResponse({"message": check["explanation"], "problem": check["verdict"] != "consistent",
-                             "verdict": check["verdict"]})
+        return JsonResponse(
+            {"message": check["explanation"], "problem": check["verdict"] != "consistent", "verdict": check["verdict"]}
+        )
 
 
 class PublicationLinkView(StudyActionView):

@@ -1,4 +1,5 @@
 """Vocabularies of the result form."""
+
 from django.db import models
 
 

@@ -133,7 +133,9 @@ USE_TZ = True
 
 STATIC_URL = "static/"
 STATICFILES_DIRS = [BASE_DIR / "static"]
-STATIC_ROOT = DATA_DIR / "static"
+# collectstatic's target; in development the files are served from STATICFILES_DIRS instead.
+STATIC_ROOT = None if DEBUG else DATA_DIR / "static"
+WHITENOISE_USE_FINDERS = DEBUG
 MEDIA_ROOT = DATA_DIR / "media"
 MEDIA_URL = "media/"
 STORAGES = {

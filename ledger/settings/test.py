@@ -4,8 +4,9 @@ The database engine is wrapped (``tests/support/db``) so that emptying the test 
 transactional tests can lift the ledger triggers for that one flush. Production settings refuse
 any engine but Django's own PostgreSQL backend, and a test proves it.
 """
+
 from ledger.settings.base import *  # noqa: F403
-from ledger.settings.base import DATABASES
+from ledger.settings.base import BASE_DIR, DATABASES
 
 TEST_ENGINES = {
     "django.db.backends.postgresql": "tests.support.db.postgresql",

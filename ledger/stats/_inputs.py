@@ -32,9 +32,7 @@ def open_unit(value: object, *, field: str) -> float:
     """A number strictly between 0 and 1 (alpha, power, a confidence level)."""
     number = real(value, field=field)
     if not 0.0 < number < 1.0:
-        raise StatsInputError(
-            f"{field} must be between 0 and 1 (exclusive); got {value!r}", field=field
-        )
+        raise StatsInputError(f"{field} must be between 0 and 1 (exclusive); got {value!r}", field=field)
     return number
 
 
@@ -73,8 +71,7 @@ def correlation(value: object, *, field: str) -> float:
 def sides(value: object) -> Sides:
     if value not in SIDES:
         raise StatsInputError(
-            f'sides must be "two" (two-sided test) or "one" (one-sided test in the predicted '
-            f"direction); got {value!r}",
+            f'sides must be "two" (two-sided test) or "one" (one-sided test in the predicted direction); got {value!r}',
             field="sides",
         )
     return value  # type: ignore[return-value]
@@ -85,11 +82,7 @@ def finite_array(values: object, *, field: str) -> np.ndarray:
     try:
         array = np.asarray(values, dtype=float)
     except (TypeError, ValueError):
-        raise StatsInputError(
-            f"{field} must be a number or an array of numbers; got {values!r}", field=field
-        ) from None
+        raise StatsInputError(f"{field} must be a number or an array of numbers; got {values!r}", field=field) from None
     if not np.all(np.isfinite(array)):
-        raise StatsInputError(
-            f"{field} must contain only finite numbers (no NaN or infinity)", field=field
-        )
+        raise StatsInputError(f"{field} must contain only finite numbers (no NaN or infinity)", field=field)
     return array

@@ -95,9 +95,7 @@ def egger_test(
     intercept (same t, df and p; metafor's "test for funnel plot asymmetry") and the intercept
     there is this slope (metafor's "limit estimate"). Only this parameterisation is offered.
     """
-    effects, variances = checked_effects_and_variances(
-        y=y, v=v, minimum_k=MIN_STUDIES_EGGER, purpose="Egger's test"
-    )
+    effects, variances = checked_effects_and_variances(y=y, v=v, minimum_k=MIN_STUDIES_EGGER, purpose="Egger's test")
     standard_errors = np.sqrt(variances)
     precision = 1.0 / standard_errors
     if np.ptp(precision) <= 1e-12 * np.max(precision):
@@ -329,12 +327,10 @@ def p_curve(*, statistics: Sequence[ReportedStatistic]) -> PCurve:
     counts, not the expected curves drawn in the app's plot. Non-significant results are
     dropped and counted in ``k_excluded``, as the app does.
     """
-    reference_forms = [
-        _reference_form(statistic, index) for index, statistic in enumerate(statistics)
-    ]
+    reference_forms = [_reference_form(statistic, index) for index, statistic in enumerate(statistics)]
     p_all = np.array([form.distribution(0.0).sf(form.value) for form in reference_forms])
     keep = p_all < PCURVE_ALPHA
-    significant_forms = [form for form, kept in zip(reference_forms, keep) if kept]
+    significant_forms = [form for form, kept in zip(reference_forms, keep, strict=True) if kept]
     p_values = p_all[keep]
     if p_values.size < MIN_SIGNIFICANT_PCURVE:
         raise StatsInputError(
@@ -345,7 +341,7 @@ def p_curve(*, statistics: Sequence[ReportedStatistic]) -> PCurve:
     in_half = p_values < PCURVE_HALF_ALPHA
 
     pp33_full, pp33_half = [], []
-    for form, half in zip(significant_forms, in_half):
+    for form, half in zip(significant_forms, in_half, strict=True):
         noncentrality = _noncentrality_for_reference_power(form.df1, form.df2)
         distribution = form.distribution(noncentrality)
         pp33_full.append(_share_less_extreme(distribution, form, PCURVE_ALPHA))
@@ -381,8 +377,7 @@ def _reference_form(statistic: ReportedStatistic, index: int) -> _ReferenceForm:
     where = f"statistics[{index}]"
     if not isinstance(statistic, ReportedStatistic):
         raise StatsInputError(
-            f"{where}: expected a ReportedStatistic(kind=..., value=..., df=...); "
-            f"got {statistic!r}",
+            f"{where}: expected a ReportedStatistic(kind=..., value=..., df=...); got {statistic!r}",
             field="statistics",
         )
     kind = statistic.kind
@@ -396,8 +391,7 @@ def _reference_form(statistic: ReportedStatistic, index: int) -> _ReferenceForm:
         given = getattr(statistic, name)
         if needed and given is None:
             raise StatsInputError(
-                f"{where}: {kind} statistics need {name} (write t(df), F(df, df2), chi2(df) "
-                "or r(df) with df = n - 2)",
+                f"{where}: {kind} statistics need {name} (write t(df), F(df, df2), chi2(df) or r(df) with df = n - 2)",
                 field=f"{where}.{name}",
             )
         if not needed and given is not None:

@@ -20,9 +20,7 @@ from ledger.stats import _inputs
 from ledger.stats.errors import StatsInputError
 
 
-def positive_predictive_value(
-    *, power: float, pre_study_odds: float, alpha: float = 0.05, bias: float = 0.0
-) -> float:
+def positive_predictive_value(*, power: float, pre_study_odds: float, alpha: float = 0.05, bias: float = 0.0) -> float:
     """PPV of a statistically significant finding; ``bias`` is Ioannidis' u, in [0, 1]."""
     sensitivity = _inputs.open_unit(power, field="power")
     odds = _inputs.positive(pre_study_odds, field="pre_study_odds")

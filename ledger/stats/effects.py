@@ -82,17 +82,13 @@ def cohens_d_from_t(*, t: float, n1: int, n2: int | None = None) -> float:
     return _inputs.real(t, field="t") * _sampling(n1, n2).scale
 
 
-def cohens_d_from_means(
-    *, mean1: float, mean2: float, sd1: float, sd2: float, n1: int, n2: int
-) -> float:
+def cohens_d_from_means(*, mean1: float, mean2: float, sd1: float, sd2: float, n1: int, n2: int) -> float:
     """Cohen's d = (mean1 - mean2) / pooled within-group SD (Borenstein et al. 2009, ch. 4)."""
     first = _inputs.whole(n1, field="n1", minimum=2)
     second = _inputs.whole(n2, field="n2", minimum=2)
     spread1 = _inputs.positive(sd1, field="sd1")
     spread2 = _inputs.positive(sd2, field="sd2")
-    pooled = math.sqrt(
-        ((first - 1) * spread1**2 + (second - 1) * spread2**2) / (first + second - 2)
-    )
+    pooled = math.sqrt(((first - 1) * spread1**2 + (second - 1) * spread2**2) / (first + second - 2))
     return (_inputs.real(mean1, field="mean1") - _inputs.real(mean2, field="mean2")) / pooled
 
 
@@ -105,18 +101,14 @@ def hedges_j(*, df: float, method: JMethod = "exact") -> float:
     """
     degrees = _inputs.real(df, field="df")
     if degrees <= 1:
-        raise StatsInputError(
-            f"df must be greater than 1 for the small-sample correction; got {df!r}", field="df"
-        )
+        raise StatsInputError(f"df must be greater than 1 for the small-sample correction; got {df!r}", field="df")
     if method == "exact":
         # poch(x, 1/2) = Gamma(x + 1/2) / Gamma(x) as one function: each gamma overflows past
         # df ~ 340, and a difference of log-gammas loses digits (J > 1 by df = 10^9).
         return float(special.poch((degrees - 1) / 2, 0.5)) / math.sqrt(degrees / 2)
     if method == "approximate":
         return 1.0 - 3.0 / (4.0 * degrees - 1.0)
-    raise StatsInputError(
-        f'method must be "exact" or "approximate"; got {method!r}', field="method"
-    )
+    raise StatsInputError(f'method must be "exact" or "approximate"; got {method!r}', field="method")
 
 
 def hedges_g(*, d: float, df: float, method: JMethod = "exact") -> float:
@@ -132,9 +124,7 @@ def variance_d(*, d: float, n1: int, n2: int | None = None) -> float:
     return sampling.scale**2 + effect**2 / (2.0 * sampling.participants)
 
 
-def variance_hedges_g(
-    *, d: float, n1: int, n2: int | None = None, method: JMethod = "exact"
-) -> float:
+def variance_hedges_g(*, d: float, n1: int, n2: int | None = None, method: JMethod = "exact") -> float:
     """Sampling variance of g = J^2 V(d), with d the uncorrected effect (Borenstein et al.
     2009, ch. 4)."""
     sampling = _sampling(n1, n2)
@@ -202,9 +192,7 @@ def _table(
     return (a, b, c, d), corrected
 
 
-def log_odds_ratio(
-    *, events_1: int, nonevents_1: int, events_2: int, nonevents_2: int
-) -> EffectEstimate:
+def log_odds_ratio(*, events_1: int, nonevents_1: int, events_2: int, nonevents_2: int) -> EffectEstimate:
     """ln OR of group 1 vs group 2 with variance 1/a + 1/b + 1/c + 1/d (Borenstein ch. 5).
 
     When any cell is zero, 0.5 is added to every cell (``continuity_corrected`` is then True).
@@ -217,9 +205,7 @@ def log_odds_ratio(
     )
 
 
-def log_risk_ratio(
-    *, events_1: int, nonevents_1: int, events_2: int, nonevents_2: int
-) -> EffectEstimate:
+def log_risk_ratio(*, events_1: int, nonevents_1: int, events_2: int, nonevents_2: int) -> EffectEstimate:
     """ln RR of group 1 vs group 2 with variance 1/a - 1/n1 + 1/c - 1/n2 (Borenstein ch. 5).
 
     Same zero-cell rule as :func:`log_odds_ratio`.
@@ -257,9 +243,7 @@ def _noncentrality_with_tail(*, t_observed: float, df: int, upper_tail: float) -
     return float(optimize.brentq(gap, t_observed - span, t_observed + span, xtol=1e-12, rtol=1e-12))
 
 
-def ci_d_noncentral_t(
-    *, d: float, n1: int, n2: int | None = None, confidence: float = 0.95
-) -> ConfidenceInterval:
+def ci_d_noncentral_t(*, d: float, n1: int, n2: int | None = None, confidence: float = 0.95) -> ConfidenceInterval:
     """Confidence interval for d by inverting the noncentral t distribution.
 
     With t = d / scale observed, the lower limit is the ncp under which t or more has
@@ -281,15 +265,11 @@ def ci_d_noncentral_t(
     )
 
 
-def ci_d_normal(
-    *, d: float, n1: int, n2: int | None = None, confidence: float = 0.95
-) -> ConfidenceInterval:
+def ci_d_normal(*, d: float, n1: int, n2: int | None = None, confidence: float = 0.95) -> ConfidenceInterval:
     """Confidence interval d +/- z sqrt(V(d)) with V(d) from :func:`variance_d`."""
     level = _inputs.open_unit(confidence, field="confidence")
     effect = _inputs.real(d, field="d")
-    half_width = float(stats.norm.isf((1 - level) / 2)) * math.sqrt(
-        variance_d(d=effect, n1=n1, n2=n2)
-    )
+    half_width = float(stats.norm.isf((1 - level) / 2)) * math.sqrt(variance_d(d=effect, n1=n1, n2=n2))
     return ConfidenceInterval(
         lower=effect - half_width,
         upper=effect + half_width,

@@ -116,9 +116,7 @@ def fixed_effect(
     level: float = 0.95,
 ) -> PooledEstimate:
     """Inverse-variance fixed-effect (common-effect) pooled estimate."""
-    effects, variances = checked_effects_and_variances(
-        y=y, v=v, minimum_k=MIN_STUDIES_POOLING, purpose="pooling"
-    )
+    effects, variances = checked_effects_and_variances(y=y, v=v, minimum_k=MIN_STUDIES_POOLING, purpose="pooling")
     critical_z = _critical_z(level)
     q, q_df = _cochran_q(effects, variances)
     i2 = 100.0 * max(0.0, (q - q_df) / q) if q > 0 else 0.0
@@ -155,9 +153,7 @@ def random_effects(
     _reml_tau2), truncated at 0. It stops when tau2 changes by less than REML_TOLERANCE and
     raises StatsInputError after REML_MAX_ITERATIONS steps without converging.
     """
-    effects, variances = checked_effects_and_variances(
-        y=y, v=v, minimum_k=MIN_STUDIES_POOLING, purpose="pooling"
-    )
+    effects, variances = checked_effects_and_variances(y=y, v=v, minimum_k=MIN_STUDIES_POOLING, purpose="pooling")
     critical_z = _critical_z(level)
     if tau2_method == "DL":
         tau2, method = _dersimonian_laird_tau2(effects, variances), "DerSimonian-Laird"
@@ -201,9 +197,7 @@ def _cochran_q(effects: FloatArray, variances: FloatArray) -> tuple[float, int]:
 def _typical_within_study_variance(variances: FloatArray) -> float:
     weights = 1.0 / variances
     # Positive whenever k >= 2 because sum(w)**2 > sum(w**2) for positive weights.
-    return float(
-        (variances.size - 1) * np.sum(weights) / (np.sum(weights) ** 2 - np.sum(weights**2))
-    )
+    return float((variances.size - 1) * np.sum(weights) / (np.sum(weights) ** 2 - np.sum(weights**2)))
 
 
 def _dersimonian_laird_tau2(effects: FloatArray, variances: FloatArray) -> float:

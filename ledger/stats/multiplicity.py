@@ -33,9 +33,7 @@ def _p_values(p_values: object) -> np.ndarray:
             field="p_values",
         )
     if np.any((array < 0) | (array > 1)):
-        raise StatsInputError(
-            "every p-value must lie between 0 and 1 (inclusive)", field="p_values"
-        )
+        raise StatsInputError("every p-value must lie between 0 and 1 (inclusive)", field="p_values")
     return array
 
 

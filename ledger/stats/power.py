@@ -117,21 +117,15 @@ def _t_test_power(*, noncentrality: float, df: float, alpha: float, sides: Sides
     critical = stats.t.isf(alpha / 2, df)
     # The lower tail P(T < -c | ncp) is written as P(T > c | -ncp): SciPy's nct.cdf returns NaN
     # far in the lower tail for large ncp, while nct.sf stays finite there.
-    return float(
-        stats.nct.sf(critical, df, noncentrality) + stats.nct.sf(critical, df, -noncentrality)
-    )
+    return float(stats.nct.sf(critical, df, noncentrality) + stats.nct.sf(critical, df, -noncentrality))
 
 
-def _normal_test_power(
-    *, noncentrality: float, alpha: float, sides: Sides, df: float | None = None
-) -> float:
+def _normal_test_power(*, noncentrality: float, alpha: float, sides: Sides, df: float | None = None) -> float:
     # ``df`` is accepted and unused so that this and _t_test_power are interchangeable.
     if sides == "one":
         return float(stats.norm.sf(stats.norm.isf(alpha) - noncentrality))
     critical = stats.norm.isf(alpha / 2)
-    return float(
-        stats.norm.sf(critical - noncentrality) + stats.norm.cdf(-critical - noncentrality)
-    )
+    return float(stats.norm.sf(critical - noncentrality) + stats.norm.cdf(-critical - noncentrality))
 
 
 def _correlation_exact_power(*, r: float, n: int, alpha: float, sides: Sides) -> float:
@@ -178,9 +172,7 @@ def _two_group_min_n(ratio: float) -> int:
 
 
 def _one_unknown(*, n: object, power: object, effect: object) -> Unknown:
-    unknowns = [
-        name for name, value in (("n", n), ("power", power), ("effect", effect)) if value is None
-    ]
+    unknowns = [name for name, value in (("n", n), ("power", power), ("effect", effect)) if value is None]
     if len(unknowns) != 1:
         raise StatsInputError(
             "leave exactly one of n, power and effect empty (None) and give the other two; "
@@ -267,18 +259,14 @@ def _minimum_detectable_effect(design: _Design, n: int, target: float) -> float:
     return float(optimize.brentq(shortfall, 0.0, upper, xtol=1e-12, rtol=1e-12))
 
 
-def _solve(
-    design: _Design, *, n: object, power: object, effect: object, alpha: float
-) -> PowerSolution:
+def _solve(design: _Design, *, n: object, power: object, effect: object, alpha: float) -> PowerSolution:
     unknown = _one_unknown(n=n, power=power, effect=effect)
     if unknown == "n":
         effect_value = _checked_effect(effect, design)
         n_value = _smallest_n(design, effect_value, _checked_target_power(power, alpha))
     elif unknown == "effect":
         n_value = _inputs.whole(n, field="n", minimum=design.min_n)
-        effect_value = _minimum_detectable_effect(
-            design, n_value, _checked_target_power(power, alpha)
-        )
+        effect_value = _minimum_detectable_effect(design, n_value, _checked_target_power(power, alpha))
     else:
         n_value = _inputs.whole(n, field="n", minimum=design.min_n)
         effect_value = _checked_effect(effect, design)
@@ -374,9 +362,7 @@ def _single_sample_t(
     checked_sides = _inputs.sides(sides)
 
     def power_at(d: float, size: int) -> float:
-        return _t_test_power(
-            noncentrality=d * math.sqrt(size), df=size - 1, alpha=alpha, sides=checked_sides
-        )
+        return _t_test_power(noncentrality=d * math.sqrt(size), df=size - 1, alpha=alpha, sides=checked_sides)
 
     design = _Design(
         method=method,
@@ -505,9 +491,7 @@ def power_correlation_fisher_z(
     sides = _inputs.sides(sides)
 
     def power_at(r: float, size: int) -> float:
-        return _normal_test_power(
-            noncentrality=math.atanh(r) * math.sqrt(size - 3), alpha=alpha, sides=sides
-        )
+        return _normal_test_power(noncentrality=math.atanh(r) * math.sqrt(size - 3), alpha=alpha, sides=sides)
 
     design = _Design(
         method="Fisher z approximation",
@@ -627,8 +611,7 @@ def _design_solver(
         )
     if ratio != 1.0 and design not in _TWO_GROUP_DESIGNS:
         raise StatsInputError(
-            f"ratio (n2 / n1) applies only to {' and '.join(_TWO_GROUP_DESIGNS)}; leave it at 1 "
-            f"for {design}",
+            f"ratio (n2 / n1) applies only to {' and '.join(_TWO_GROUP_DESIGNS)}; leave it at 1 for {design}",
             field="ratio",
         )
     if design in _UPPER_TAIL_DESIGNS:

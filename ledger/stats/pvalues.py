@@ -36,8 +36,7 @@ STATISTIC_KINDS: tuple[str, ...] = ("t", "F", "chi2", "z", "r")
 Verdict = Literal["consistent", "inconsistent", "decision_changing"]
 
 _ACCEPTED_P_FORMS = (
-    '"0.03", ".03", "p = .031", "p<.001", "< 0.001", "p > .05", "p ≤ .01", "1.2e-5", '
-    '"1.2 \u00d7 10^-5", "n.s.", "ns"'
+    '"0.03", ".03", "p = .031", "p<.001", "< 0.001", "p > .05", "p ≤ .01", "1.2e-5", "1.2 \u00d7 10^-5", "n.s.", "ns"'
 )
 
 
@@ -49,9 +48,7 @@ def _degrees(value: object, *, field: str, minimum: float = 0.0) -> np.ndarray:
         raise StatsInputError(f"{field} is required for this statistic", field=field)
     array = _inputs.finite_array(value, field=field)
     if np.any(array <= minimum):
-        raise StatsInputError(
-            f"{field} must be greater than {minimum:g}; got {value!r}", field=field
-        )
+        raise StatsInputError(f"{field} must be greater than {minimum:g}; got {value!r}", field=field)
     return array
 
 
@@ -80,9 +77,7 @@ def p_from_statistic(
     Returns a float when every input is a scalar, otherwise an array of the broadcast shape.
     """
     if kind not in STATISTIC_KINDS:
-        raise StatsInputError(
-            f"kind must be one of {', '.join(STATISTIC_KINDS)}; got {kind!r}", field="kind"
-        )
+        raise StatsInputError(f"kind must be one of {', '.join(STATISTIC_KINDS)}; got {kind!r}", field="kind")
     sides = _inputs.sides(sides)
     statistic = _inputs.finite_array(value, field="value")
     if kind in ("F", "chi2"):
@@ -93,9 +88,7 @@ def p_from_statistic(
                 field="sides",
             )
         if np.any(statistic < 0):
-            raise StatsInputError(
-                f"a {kind} statistic cannot be negative; got {value!r}", field="value"
-            )
+            raise StatsInputError(f"a {kind} statistic cannot be negative; got {value!r}", field="value")
         if kind == "F":
             p = stats.f.sf(statistic, _degrees(df1, field="df1"), _degrees(df2, field="df2"))
         else:
@@ -107,9 +100,7 @@ def p_from_statistic(
         tail = stats.t.sf(np.abs(statistic), _degrees(df1, field="df1"))
     else:
         if np.any(np.abs(statistic) >= 1):
-            raise StatsInputError(
-                f"r must lie between -1 and 1 (exclusive); got {value!r}", field="value"
-            )
+            raise StatsInputError(f"r must lie between -1 and 1 (exclusive); got {value!r}", field="value")
         pairs = _degrees(n, field="n", minimum=2)
         t_statistic = np.abs(statistic) * np.sqrt((pairs - 2) / (1 - statistic**2))
         tail = stats.t.sf(t_statistic, pairs - 2)
@@ -213,9 +204,7 @@ def parse_reported_p(*, text: str, alpha: float = 0.05) -> ReportedP:
     except InvalidOperation:
         raise _unparseable(text) from None
     if number > 1:
-        raise StatsInputError(
-            f"a p-value lies between 0 and 1; {text!r} is above 1", field="p_reported"
-        )
+        raise StatsInputError(f"a p-value lies between 0 and 1; {text!r} is above 1", field="p_reported")
     stated = float(number)
     relation = _RELATIONS[match["relation"]] if match["relation"] else "="
     if (relation == "<" and stated == 0.0) or (relation == ">" and stated == 1.0):
@@ -339,11 +328,7 @@ def p_consistency(
     smallest, largest = _rounding_range(statistic_kind, statistic, decimals)
 
     def p_of(magnitude: float) -> float:
-        return float(
-            p_from_statistic(
-                kind=statistic_kind, value=magnitude, df1=df1, df2=df2, n=n, sides=sides
-            )
-        )
+        return float(p_from_statistic(kind=statistic_kind, value=magnitude, df1=df1, df2=df2, n=n, sides=sides))
 
     recomputed = p_of(statistic)  # validates the statistic, its df and the sides
     low, high = p_of(largest), p_of(smallest)
@@ -353,9 +338,7 @@ def p_consistency(
     recomputed_at_or_above = low >= alpha
     if above_lower and below_upper:
         verdict: Verdict = "consistent"
-    elif (reported.below(alpha) and recomputed_at_or_above) or (
-        reported.at_or_above(alpha) and recomputed_below
-    ):
+    elif (reported.below(alpha) and recomputed_at_or_above) or (reported.at_or_above(alpha) and recomputed_below):
         verdict = "decision_changing"
     else:
         verdict = "inconsistent"
@@ -366,8 +349,7 @@ def p_consistency(
     findings = {
         "consistent": "which agrees with the reported",
         "inconsistent": "which does not match the reported",
-        "decision_changing": "which falls on the other side of alpha "
-        f"= {alpha:g} from the reported",
+        "decision_changing": f"which falls on the other side of alpha = {alpha:g} from the reported",
     }
     explanation = (
         f"The {tails} p recomputed from {statistic_kind} = {shown} is {recomputed:.4g}{span}, "

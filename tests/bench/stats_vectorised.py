@@ -40,22 +40,16 @@ def measure(*, n: int, repeats: int, seed: int = 1) -> dict[str, float | int]:
 
     vectorised = p_from_statistic(kind="t", value=t_values, df1=degrees)
     looped = np.array(
-        [
-            p_from_statistic(kind="t", value=float(t), df1=float(d))
-            for t, d in zip(t_values, degrees, strict=True)
-        ]
+        [p_from_statistic(kind="t", value=float(t), df1=float(d)) for t, d in zip(t_values, degrees, strict=True)]
     )
     # Both routes must give the same numbers, or the comparison means nothing.
     np.testing.assert_allclose(vectorised, looped, rtol=1e-12)
 
-    vectorised_seconds = _best_of(
-        repeats, lambda: p_from_statistic(kind="t", value=t_values, df1=degrees)
-    )
+    vectorised_seconds = _best_of(repeats, lambda: p_from_statistic(kind="t", value=t_values, df1=degrees))
     loop_seconds = _best_of(
         repeats,
         lambda: [
-            p_from_statistic(kind="t", value=float(t), df1=float(d))
-            for t, d in zip(t_values, degrees, strict=True)
+            p_from_statistic(kind="t", value=float(t), df1=float(d)) for t, d in zip(t_values, degrees, strict=True)
         ],
     )
     return {

@@ -1,4 +1,5 @@
 """entry_append: gap-free, linked, and refused by Python on every change path."""
+
 import hashlib
 import json
 

@@ -1,4 +1,5 @@
 """Many writers at once: one chain, no gaps, no forks (PostgreSQL row locks)."""
+
 import threading
 
 import pytest

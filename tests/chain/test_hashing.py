@@ -1,4 +1,5 @@
 """The entry hash preimage, checked against the written specification and RFC 8785."""
+
 import datetime as dt
 import hashlib
 import json
@@ -9,7 +10,12 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from ledger.chain.hashing import (
-    PayloadNotCanonicalisable, canonical_json, entry_digest, entry_header, entry_header_bytes, format_timestamp,
+    PayloadNotCanonicalisable,
+    canonical_json,
+    entry_digest,
+    entry_header,
+    entry_header_bytes,
+    format_timestamp,
 )
 
 
@@ -42,8 +48,14 @@ def test_entry_hash_matches_the_documented_preimage():
         '"prev":"' + "0" * 64 + '","seq":1,"study":"Q3T8ZK","v":1}'
     ).encode()
     digest = entry_digest(
-        seq=1, kind="PLAN_SEALED", lab_uid="0b7c5a52-1d1e-4c55-9a8e-6a1f0e8b7c11", study_code="Q3T8ZK",
-        author_id=7, created_at=moment, payload_hash="ab" * 32, prev_hash="0" * 64,
+        seq=1,
+        kind="PLAN_SEALED",
+        lab_uid="0b7c5a52-1d1e-4c55-9a8e-6a1f0e8b7c11",
+        study_code="Q3T8ZK",
+        author_id=7,
+        created_at=moment,
+        payload_hash="ab" * 32,
+        prev_hash="0" * 64,
     )
     assert digest == hashlib.sha256(preimage).hexdigest()
 

@@ -1,4 +1,5 @@
 """The database itself refuses to change or remove ledger rows, whoever asks."""
+
 import os
 import sqlite3
 import subprocess
@@ -46,8 +47,12 @@ def test_raw_sql_changes_are_refused(two_entries, sql):
 
 @pytest.mark.django_db
 def test_an_entry_that_does_not_extend_the_tip_is_refused(two_entries):
-    columns = "seq, kind, lab_id, study_id, lab_uid, study_code, author_id, created_at, payload, payload_hash, prev_hash, entry_hash"
-    insert = f"INSERT INTO chain_entry ({columns}) VALUES (%s, 'PUBLICATION_LINKED', NULL, NULL, '', '', NULL, %s, '{{}}', %s, %s, %s)"
+    columns = (
+        "seq, kind, lab_id, study_id, lab_uid, study_code, author_id, created_at, payload, payload_hash, "
+        "prev_hash, entry_hash"
+    )
+    values = "%s, 'PUBLICATION_LINKED', NULL, NULL, '', '', NULL, %s, '{}', %s, %s, %s"
+    insert = f"INSERT INTO chain_entry ({columns}) VALUES ({values})"
     now = two_entries[-1].created_at
     fork = (2 + 2, now, "a" * 64, two_entries[-1].entry_hash, "b" * 64)  # skips seq 3: a gap
     wrong_link = (3, now, "a" * 64, "c" * 64, "d" * 64)  # prev is not entry 2's hash: a fork

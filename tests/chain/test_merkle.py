@@ -63,9 +63,7 @@ def reference_mth(entries: list[bytes]) -> bytes:
     if n == 1:
         return hashlib.sha256(b"\x00" + entries[0]).digest()
     k = _reference_split(n)
-    return hashlib.sha256(
-        b"\x01" + reference_mth(entries[:k]) + reference_mth(entries[k:])
-    ).digest()
+    return hashlib.sha256(b"\x01" + reference_mth(entries[:k]) + reference_mth(entries[k:])).digest()
 
 
 def reference_path(m: int, entries: list[bytes]) -> list[bytes]:
@@ -104,9 +102,7 @@ class NodeStore:
         self.fetches: list[set[tuple[int, int]]] = []
         frontier: list[bytes] = []
         for size, entry in enumerate(entries):
-            frontier, completed = frontier_append(
-                frontier=frontier, size=size, leaf=leaf_hash(entry)
-            )
+            frontier, completed = frontier_append(frontier=frontier, size=size, leaf=leaf_hash(entry))
             for level, index, digest in completed:
                 assert (level, index) not in self.nodes, "each node must be completed exactly once"
                 self.nodes[(level, index)] = digest
@@ -166,11 +162,7 @@ NODE_HASHES = [
     ],
     ["5dc9da79a70659a9ad559cb701ded9a2ab9d823aad2f4960cfe370eff4604328"],
 ]
-NODE = {
-    (level, index): bytes.fromhex(h)
-    for level, row in enumerate(NODE_HASHES)
-    for index, h in enumerate(row)
-}
+NODE = {(level, index): bytes.fromhex(h) for level, row in enumerate(NODE_HASHES) for index, h in enumerate(row)}
 
 # RootHashes(): root for tree sizes 0..8. [constants]
 ROOTS = [
@@ -325,9 +317,7 @@ def test_append_reports_leaf_first_then_each_completed_parent():
         (3, 0, NODE[(3, 0)]),
     ]
     assert new_frontier == [NODE[(3, 0)]]
-    assert frontier == [NODE[node_id] for node_id in FRONTIER_IDS[7]], (
-        "input frontier must not change"
-    )
+    assert frontier == [NODE[node_id] for node_id in FRONTIER_IDS[7]], "input frontier must not change"
 
 
 def test_append_rejects_a_frontier_that_does_not_fit_the_size():
@@ -363,9 +353,7 @@ def test_fold_of_each_valid_range_equals_the_rfc_hash_of_that_range():
                     subtrees_of_range(start=start, end=end)
                 continue
             pieces = subtrees_of_range(start=start, end=end)
-            covered = [
-                i for level, index in pieces for i in range(index << level, (index + 1) << level)
-            ]
+            covered = [i for level, index in pieces for i in range(index << level, (index + 1) << level)]
             assert covered == list(range(start, end))
             folded = fold_subtree_hashes([store.nodes[piece] for piece in pieces])
             assert folded == reference_mth(entries[start:end]), (start, end)
@@ -448,9 +436,7 @@ GO_CONSISTENCY_PLANS = [
 ]
 
 
-@pytest.mark.parametrize(
-    ("size", "index", "ids", "rehash"), GO_INCLUSION_PLANS, ids=_ids(GO_INCLUSION_PLANS)
-)
+@pytest.mark.parametrize(("size", "index", "ids", "rehash"), GO_INCLUSION_PLANS, ids=_ids(GO_INCLUSION_PLANS))
 def test_inclusion_plan_matches_published_node_lists(size, index, ids, rehash):
     assert inclusion_proof_plan(index=index, size=size) == _plan_from_go_nodes(ids, rehash)
 
@@ -459,9 +445,7 @@ def test_inclusion_plan_matches_published_node_lists(size, index, ids, rehash):
     ("old_size", "new_size", "ids", "rehash"), GO_CONSISTENCY_PLANS, ids=_ids(GO_CONSISTENCY_PLANS)
 )
 def test_consistency_plan_matches_published_node_lists(old_size, new_size, ids, rehash):
-    assert consistency_proof_plan(old_size=old_size, new_size=new_size) == _plan_from_go_nodes(
-        ids, rehash
-    )
+    assert consistency_proof_plan(old_size=old_size, new_size=new_size) == _plan_from_go_nodes(ids, rehash)
 
 
 @pytest.mark.parametrize(("size", "index"), [(0, 0), (0, 1), (1, 2), (0, 3), (7, 8), (7, -1)])
@@ -486,30 +470,19 @@ def test_assemble_names_the_missing_nodes():
 # --- published proofs: generation and verification -----------------------------------------
 
 
-@pytest.mark.parametrize(
-    ("index", "size", "expected"), INCLUSION_VECTORS, ids=_ids(INCLUSION_VECTORS)
-)
-def test_inclusion_proof_from_stored_nodes_matches_published(
-    published_store, index, size, expected
-):
+@pytest.mark.parametrize(("index", "size", "expected"), INCLUSION_VECTORS, ids=_ids(INCLUSION_VECTORS))
+def test_inclusion_proof_from_stored_nodes_matches_published(published_store, index, size, expected):
     published_store.fetches.clear()
     proof = inclusion_proof(index=index, size=size, fetch=published_store.fetch)
     assert proof == expected
     assert len(published_store.fetches) == (1 if expected else 0)
     leaf = leaf_hash(LEAF_INPUTS[index])
-    assert (
-        root_from_inclusion_proof(leaf_hash=leaf, index=index, size=size, proof=proof)
-        == ROOTS[size]
-    )
+    assert root_from_inclusion_proof(leaf_hash=leaf, index=index, size=size, proof=proof) == ROOTS[size]
     assert verify_inclusion(leaf_hash=leaf, index=index, size=size, proof=proof, root=ROOTS[size])
 
 
-@pytest.mark.parametrize(
-    ("old_size", "new_size", "expected"), CONSISTENCY_VECTORS, ids=_ids(CONSISTENCY_VECTORS)
-)
-def test_consistency_proof_from_stored_nodes_matches_published(
-    published_store, old_size, new_size, expected
-):
+@pytest.mark.parametrize(("old_size", "new_size", "expected"), CONSISTENCY_VECTORS, ids=_ids(CONSISTENCY_VECTORS))
+def test_consistency_proof_from_stored_nodes_matches_published(published_store, old_size, new_size, expected):
     proof = consistency_proof(old_size=old_size, new_size=new_size, fetch=published_store.fetch)
     assert proof == expected
     assert verify_consistency(
@@ -595,28 +568,20 @@ def test_every_published_inclusion_corruption_is_rejected(index, size, proof):
     accepted = [
         name
         for name, (p_index, p_size, p_root, p_leaf, p_proof) in probes.items()
-        if verify_inclusion(
-            leaf_hash=p_leaf, index=p_index, size=p_size, proof=p_proof, root=p_root
-        )
+        if verify_inclusion(leaf_hash=p_leaf, index=p_index, size=p_size, proof=p_proof, root=p_root)
     ]
     assert accepted == []
     assert len(probes) >= 12
 
 
-@pytest.mark.parametrize(
-    ("old_size", "new_size", "proof"), NONTRIVIAL_CONSISTENCY, ids=_ids(NONTRIVIAL_CONSISTENCY)
-)
+@pytest.mark.parametrize(("old_size", "new_size", "proof"), NONTRIVIAL_CONSISTENCY, ids=_ids(NONTRIVIAL_CONSISTENCY))
 def test_every_published_consistency_corruption_is_rejected(old_size, new_size, proof):
     # verify_test.go only corrupts non-empty proofs (its comment: "for simplicity").
-    probes = corrupted_consistency_probes(
-        old_size, new_size, ROOTS[old_size], ROOTS[new_size], proof
-    )
+    probes = corrupted_consistency_probes(old_size, new_size, ROOTS[old_size], ROOTS[new_size], proof)
     accepted = [
         name
         for name, (p_old, p_new, p_old_root, p_new_root, p_proof) in probes.items()
-        if verify_consistency(
-            old_size=p_old, new_size=p_new, old_root=p_old_root, new_root=p_new_root, proof=p_proof
-        )
+        if verify_consistency(old_size=p_old, new_size=p_new, old_root=p_old_root, new_root=p_new_root, proof=p_proof)
     ]
     assert accepted == []
 
@@ -628,14 +593,10 @@ def test_flipping_any_bit_of_a_published_inclusion_proof_or_root_is_rejected(ind
         for bit in range(256):
             wrong = list(proof)
             wrong[position] = _flip(proof[position], byte=bit // 8, mask=1 << (bit % 8))
-            assert not verify_inclusion(
-                leaf_hash=leaf, index=index, size=size, proof=wrong, root=ROOTS[size]
-            )
+            assert not verify_inclusion(leaf_hash=leaf, index=index, size=size, proof=wrong, root=ROOTS[size])
     for bit in range(256):
         wrong_root = _flip(ROOTS[size], byte=bit // 8, mask=1 << (bit % 8))
-        assert not verify_inclusion(
-            leaf_hash=leaf, index=index, size=size, proof=proof, root=wrong_root
-        )
+        assert not verify_inclusion(leaf_hash=leaf, index=index, size=size, proof=proof, root=wrong_root)
 
 
 def test_single_entry_tree_checks_leaf_against_root():
@@ -652,9 +613,7 @@ def test_inclusion_with_empty_proof_and_mismatched_hashes_is_rejected(index, siz
     # TestVerifyInclusion probes. [verify]
     assert not verify_inclusion(leaf_hash=SOME_HASH, index=index, size=size, proof=[], root=b"")
     assert not verify_inclusion(leaf_hash=b"", index=index, size=size, proof=[], root=EMPTY_ROOT)
-    assert not verify_inclusion(
-        leaf_hash=SOME_HASH, index=index, size=size, proof=[], root=EMPTY_ROOT
-    )
+    assert not verify_inclusion(leaf_hash=SOME_HASH, index=index, size=size, proof=[], root=EMPTY_ROOT)
 
 
 _ROOT_A, _ROOT_B = leaf_hash(b"root a"), leaf_hash(b"root b")
@@ -685,9 +644,7 @@ _ROOT_A, _ROOT_B = leaf_hash(b"root a"), leaf_hash(b"root b")
 )
 def test_consistency_edge_sizes(old_size, new_size, old_root, new_root, proof, accepted):
     assert (
-        verify_consistency(
-            old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof
-        )
+        verify_consistency(old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof)
         is accepted
     )
 
@@ -774,18 +731,14 @@ def test_inclusion_proofs_equal_rfc_recursion_and_resist_bit_flips(big_store, da
 
 @settings(deadline=None, max_examples=150)
 @given(data=st.data(), new_size=_sizes, bit=_bit)
-def test_consistency_proofs_equal_rfc_recursion_and_resist_bit_flips(
-    big_store, data, new_size, bit
-):
+def test_consistency_proofs_equal_rfc_recursion_and_resist_bit_flips(big_store, data, new_size, bit):
     entries, store = big_store
     old_size = data.draw(st.integers(min_value=1, max_value=new_size), label="old_size")
     old_root, new_root = reference_mth(entries[:old_size]), reference_mth(entries[:new_size])
 
     proof = consistency_proof(old_size=old_size, new_size=new_size, fetch=store.fetch)
     assert proof == reference_proof(old_size, entries[:new_size])
-    assert verify_consistency(
-        old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof
-    )
+    assert verify_consistency(old_size=old_size, new_size=new_size, old_root=old_root, new_root=new_root, proof=proof)
 
     mask = 1 << (bit % 8)
     for wrong_old, wrong_new in [
@@ -836,15 +789,12 @@ class CountingFetch:
 
 def test_node_count_maxima_are_exact_for_every_request_on_small_trees():
     for n in range(1, 301):
-        inclusion_counts = [
-            len(plan_node_ids(inclusion_proof_plan(index=i, size=n))) for i in range(n)
-        ]
+        inclusion_counts = [len(plan_node_ids(inclusion_proof_plan(index=i, size=n))) for i in range(n)]
         assert max(inclusion_counts) == inclusion_maximum(n), n
         assert inclusion_counts[0] == inclusion_maximum(n), n
         if n >= 2:
             consistency_counts = [
-                len(plan_node_ids(consistency_proof_plan(old_size=m, new_size=n)))
-                for m in range(1, n)
+                len(plan_node_ids(consistency_proof_plan(old_size=m, new_size=n))) for m in range(1, n)
             ]
             assert max(consistency_counts) == consistency_maximum(n), n
 
@@ -867,16 +817,12 @@ def test_nodes_requested_stay_within_the_bound_up_to_two_to_the_twenty():
         for index in [n - 1, *(picked.randrange(n) for _ in range(20))]:
             fetch = CountingFetch()
             proof = inclusion_proof(index=index, size=n, fetch=fetch)
-            assert len(fetch.calls) <= 1 and sum(fetch.calls) <= inclusion_maximum(
-                n
-            ) <= 2 * _ceil_log2(n)
+            assert len(fetch.calls) <= 1 and sum(fetch.calls) <= inclusion_maximum(n) <= 2 * _ceil_log2(n)
             assert len(proof) <= _ceil_log2(n)
         for old_size in [1, n - 1, *(picked.randint(1, n - 1) for _ in range(20))]:
             fetch = CountingFetch()
             consistency_proof(old_size=old_size, new_size=n, fetch=fetch)
-            assert len(fetch.calls) == 1 and fetch.calls[0] <= consistency_maximum(
-                n
-            ) <= 2 * _ceil_log2(n)
+            assert len(fetch.calls) == 1 and fetch.calls[0] <= consistency_maximum(n) <= 2 * _ceil_log2(n)
         fetch = CountingFetch()
         root_hash(size=n, fetch=fetch)
         assert fetch.calls == [n.bit_count()]

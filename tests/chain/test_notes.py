@@ -43,17 +43,10 @@ from ledger.chain.notes import (
 PETER_VERIFIER_KEY = "PeterNeumann+c74f20a3+ARpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TW"
 PETER_SIGNER_KEY = "PRIVATE+KEY+PeterNeumann+c74f20a3+AYEKFALVFGyNhPJEMzD1QIDr+Y7hfZx09iUvxdXHKDFz"
 ENOCH_VERIFIER_KEY = "EnochRoot+af0cfe78+ATtqJ7zOtqQtYqOo0CpvDXNlMhV3HeJDpjrASKGLWdop"
-TEXT = (
-    "If you think cryptography is the answer to your problem,\n"
-    "then you don't know what your problem is.\n"
-)
-PETER_ENCODED = (
-    "x08go/ZJkuBS9UG/SffcvIAQxVBtiFupLLr8pAcElZInNIuGUgYN1FFYC2pZSNXgKvqfqdngotpRZb6KE6RyyBwJnAM="
-)
+TEXT = "If you think cryptography is the answer to your problem,\nthen you don't know what your problem is.\n"
+PETER_ENCODED = "x08go/ZJkuBS9UG/SffcvIAQxVBtiFupLLr8pAcElZInNIuGUgYN1FFYC2pZSNXgKvqfqdngotpRZb6KE6RyyBwJnAM="
 PETER_SIG_LINE = f"\u2014 PeterNeumann {PETER_ENCODED}\n"
-ENOCH_ENCODED = (
-    "rwz+eBzmZa0SO3NbfRGzPCpDckykFXSdeX+MNtCOXm2/5n2tiOHp+vAF1aGrQ5ovTG01oOTGwnWLox33WWd1RvMc+QQ="
-)
+ENOCH_ENCODED = "rwz+eBzmZa0SO3NbfRGzPCpDckykFXSdeX+MNtCOXm2/5n2tiOHp+vAF1aGrQ5ovTG01oOTGwnWLox33WWd1RvMc+QQ="
 ENOCH_SIG_LINE = f"\u2014 EnochRoot {ENOCH_ENCODED}\n"
 PETER = NoteSignature(
     name="PeterNeumann",
@@ -119,29 +112,19 @@ def test_keys_with_adjusted_ids_but_wrong_length_or_type_are_rejected():
     # [note_test] TestNewVerifier: "wrong length key, with adjusted key hash". Its base64 is
     # also non-canonical (the last 'Y' has padding bits set), which we refuse first.
     with pytest.raises(KeyFormatError, match="canonical"):
-        NoteVerifier.from_key_string(
-            "PeterNeumann+cc469956+ARpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TWBADKEY=="
-        )
+        NoteVerifier.from_key_string("PeterNeumann+cc469956+ARpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TWBADKEY==")
     # The same idea with canonical base64: 33 key bytes, ID adjusted by the spec formula
     # SHA-256(name || 0x0A || key data)[:4], computed here with hashlib.
     key_data = base64.b64decode("ARpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TW") + b"!"
     adjusted_id = hashlib.sha256(b"PeterNeumann\n" + key_data).digest()[:4].hex()
-    with pytest.raises(
-        KeyFormatError, match="33 key bytes after the type byte; Ed25519 keys are 32"
-    ):
-        NoteVerifier.from_key_string(
-            f"PeterNeumann+{adjusted_id}+{base64.b64encode(key_data).decode()}"
-        )
+    with pytest.raises(KeyFormatError, match="33 key bytes after the type byte; Ed25519 keys are 32"):
+        NoteVerifier.from_key_string(f"PeterNeumann+{adjusted_id}+{base64.b64encode(key_data).decode()}")
     # [note_test] "unknown algorithm, with adjusted key hash".
     with pytest.raises(KeyFormatError, match="signature type 0x65; only Ed25519"):
-        NoteVerifier.from_key_string(
-            "PeterNeumann+173116ae+ZRpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TW"
-        )
+        NoteVerifier.from_key_string("PeterNeumann+173116ae+ZRpc2QcUPDhMQegwxbzhKqiBfsVkmqq/LDE4izWy10TW")
 
 
-@pytest.mark.parametrize(
-    "name", ["", "a+b", "two words", "tab\there", "no\u00a0break", "line\nbreak"]
-)
+@pytest.mark.parametrize("name", ["", "a+b", "two words", "tab\there", "no\u00a0break", "line\nbreak"])
 def test_invalid_key_names_are_rejected(name):
     # [signed-note] "Key names MUST be non-empty and MUST NOT contain any Unicode spaces or plus".
     with pytest.raises(KeyFormatError, match="key name"):
@@ -190,15 +173,7 @@ def test_repeated_trusted_verifier_is_harmless(peter, enoch):
 def test_repeated_signatures_are_reported_once(peter):
     # [note_test] "Duplicated verified and unverified signatures".
     enoch_altered_line = _insert_abcd(ENOCH_SIG_LINE)
-    note = (
-        TEXT
-        + "\n"
-        + PETER_SIG_LINE
-        + PETER_SIG_LINE
-        + ENOCH_SIG_LINE
-        + ENOCH_SIG_LINE
-        + enoch_altered_line
-    )
+    note = TEXT + "\n" + PETER_SIG_LINE + PETER_SIG_LINE + ENOCH_SIG_LINE + ENOCH_SIG_LINE + enoch_altered_line
     opened = open_note(note=note, verifiers=[peter])
     assert opened.verified_signatures == (PETER,)
     enoch_altered = NoteSignature(
@@ -244,9 +219,7 @@ def test_a_bad_repeat_of_a_good_signature_still_fails(peter):
         TEXT + "\n" + "\u2014 PeterNeumann\n",  # no signature
         TEXT + "\n" + "\u2014 PeterNeumann AAAA\n",  # 3 bytes: no room for key ID and signature
         TEXT + "\n" + "\u2014 PeterNeumann " + PETER.encoded.rstrip("=") + "\n",  # padding dropped
-        TEXT.replace("\n", "\r\n", 1)
-        + "\n"
-        + PETER_SIG_LINE,  # carriage return is a control character
+        TEXT.replace("\n", "\r\n", 1) + "\n" + PETER_SIG_LINE,  # carriage return is a control character
         TEXT + "\n" + PETER_SIG_LINE + "\n",  # blank line after the signatures
     ],
     ids=lambda note: repr(note[:12]) + f"...{len(note)}",
@@ -280,13 +253,9 @@ def log_signer() -> NoteSigner:
     ],
 )
 def test_sign_then_open_round_trips(log_signer, text):
-    opened = open_note(
-        note=sign_note(text=text, signer=log_signer), verifiers=[log_signer.verifier]
-    )
+    opened = open_note(note=sign_note(text=text, signer=log_signer), verifiers=[log_signer.verifier])
     assert opened.text == text
-    assert [(s.name, s.key_id) for s in opened.verified_signatures] == [
-        (log_signer.name, log_signer.key_id)
-    ]
+    assert [(s.name, s.key_id) for s in opened.verified_signatures] == [(log_signer.name, log_signer.key_id)]
 
 
 def test_generated_keys_round_trip_through_their_strings(log_signer):
@@ -317,19 +286,14 @@ def test_signature_by_another_key_with_the_same_name_is_not_trusted(log_signer):
     # name or ID (but not both) with a known key."
     impostor = NoteSigner.generate(name=log_signer.name)
     with pytest.raises(UntrustedNoteError):
-        open_note(
-            note=sign_note(text="size 41\n", signer=impostor), verifiers=[log_signer.verifier]
-        )
+        open_note(note=sign_note(text="size 41\n", signer=impostor), verifiers=[log_signer.verifier])
 
 
 def test_witness_cosignature_is_kept_without_failing(log_signer):
     # A cosignature line of another key type (0x04 timestamped cosignature: key ID, 8-byte
     # timestamp, 64-byte signature); this module does not check it but must keep it.
     cosignature = base64.b64encode(bytes.fromhex("0badf00d") + bytes(72)).decode()
-    note = (
-        sign_note(text="size 41\n", signer=log_signer)
-        + f"\u2014 witness.example/w1 {cosignature}\n"
-    )
+    note = sign_note(text="size 41\n", signer=log_signer) + f"\u2014 witness.example/w1 {cosignature}\n"
     opened = open_note(note=note, verifiers=[log_signer.verifier])
     assert opened.unverified_signatures == (
         NoteSignature(name="witness.example/w1", key_id=0x0BADF00D, encoded=cosignature),
@@ -383,16 +347,12 @@ def test_published_spec_note_splits_at_the_last_blank_line():
 # --- checkpoints -----------------------------------------------------------------------------
 
 TLOG_TREE = "go.sum database tree\n123456789012\nTszzRgjTG6xce+z2AG31kAXYKBgQVtCSCE40HmuwBb0=\n"
-SPEC_CHECKPOINT = (
-    "example.com/behind-the-sofa\n20852163\nCsUYapGGPo4dkMgIAUqom/Xajj7h2fB2MPA3j2jxq2I=\n"
-)
+SPEC_CHECKPOINT = "example.com/behind-the-sofa\n20852163\nCsUYapGGPo4dkMgIAUqom/Xajj7h2fB2MPA3j2jxq2I=\n"
 
 
 def test_format_reproduces_the_published_tree_head():
     # [tlog_test] TestFormatTree: the root there is RecordHash("hello world") = RFC 6962 leaf hash.
-    body = format_checkpoint(
-        origin="go.sum database tree", size=123456789012, root_hash=leaf_hash(b"hello world")
-    )
+    body = format_checkpoint(origin="go.sum database tree", size=123456789012, root_hash=leaf_hash(b"hello world"))
     assert body == TLOG_TREE
 
 
@@ -413,14 +373,9 @@ def test_spec_checkpoint_parses_and_formats_back():
         20852163,
         (),
     )
+    assert base64.b64encode(checkpoint.root_hash).decode() == "CsUYapGGPo4dkMgIAUqom/Xajj7h2fB2MPA3j2jxq2I="
     assert (
-        base64.b64encode(checkpoint.root_hash).decode()
-        == "CsUYapGGPo4dkMgIAUqom/Xajj7h2fB2MPA3j2jxq2I="
-    )
-    assert (
-        format_checkpoint(
-            origin=checkpoint.origin, size=checkpoint.size, root_hash=checkpoint.root_hash
-        )
+        format_checkpoint(origin=checkpoint.origin, size=checkpoint.size, root_hash=checkpoint.root_hash)
         == SPEC_CHECKPOINT
     )
 
@@ -506,18 +461,14 @@ def test_format_refuses_what_parse_would_reject(arguments, message):
 
 
 def test_extensions_round_trip():
-    body = format_checkpoint(
-        origin="ledger.example/log", size=8, root_hash=bytes(32), extensions=["a b", "c"]
-    )
+    body = format_checkpoint(origin="ledger.example/log", size=8, root_hash=bytes(32), extensions=["a b", "c"])
     assert parse_checkpoint(body).extensions == ("a b", "c")
 
 
 def test_signed_checkpoint_of_the_published_eight_leaf_tree(log_signer):
     # Root for size 8 from transparency-dev/merkle testonly/constants.go (RootHashes()[8]).
     root = bytes.fromhex("5dc9da79a70659a9ad559cb701ded9a2ab9d823aad2f4960cfe370eff4604328")
-    note = sign_note(
-        text=format_checkpoint(origin=log_signer.name, size=8, root_hash=root), signer=log_signer
-    )
+    note = sign_note(text=format_checkpoint(origin=log_signer.name, size=8, root_hash=root), signer=log_signer)
     opened = open_note(note=note, verifiers=[log_signer.verifier])
     checkpoint = parse_checkpoint(opened.text)
     assert (checkpoint.origin, checkpoint.size, checkpoint.root_hash) == (log_signer.name, 8, root)

@@ -1,4 +1,5 @@
 """Someone with full database rights lifts the triggers and edits a row: verify_ledger must notice."""
+
 import pytest
 from django.core.management import call_command
 from django.db import connection

@@ -247,13 +247,9 @@ def pp33_by_noncentral_t(t: float, df: float, alpha: float) -> float:
 def test_flatness_pp_values_for_t_match_scipy_noncentral_t():
     observed = [(2.5, 20), (3.1, 35), (4.2, 50), (-2.1, 28), (2.9, 12)]  # (t, df), constructed
     result = p_curve(statistics=[ReportedStatistic(kind="t", value=t, df=df) for t, df in observed])
-    assert result.pp33_full == pytest.approx(
-        [pp33_by_noncentral_t(t, df, 0.05) for t, df in observed], abs=1e-7
-    )
-    in_half = [(t, df) for (t, df), half in zip(observed, result.in_half_curve) if half]
-    assert result.pp33_half == pytest.approx(
-        [pp33_by_noncentral_t(t, df, 0.025) for t, df in in_half], abs=1e-7
-    )
+    assert result.pp33_full == pytest.approx([pp33_by_noncentral_t(t, df, 0.05) for t, df in observed], abs=1e-7)
+    in_half = [(t, df) for (t, df), half in zip(observed, result.in_half_curve, strict=True) if half]
+    assert result.pp33_half == pytest.approx([pp33_by_noncentral_t(t, df, 0.025) for t, df in in_half], abs=1e-7)
     expected_z = np.sum(stats.norm.ppf(result.pp33_full)) / np.sqrt(5)
     assert result.flatness_full.z == pytest.approx(expected_z, rel=1e-10)
     assert result.flatness_full.p == pytest.approx(stats.norm.cdf(expected_z), rel=1e-10)
@@ -273,10 +269,7 @@ def test_flatness_pp_values_for_z_match_a_shifted_normal():
     def abs_cdf(x: float) -> float:  # P(|Z + mu| <= x)
         return stats.norm.cdf(x - mu) - stats.norm.cdf(-x - mu)
 
-    expected = [
-        (abs_cdf(stats.norm.isf(p / 2)) - abs_cdf(critical)) / (1 - abs_cdf(critical))
-        for p in p_values
-    ]
+    expected = [(abs_cdf(stats.norm.isf(p / 2)) - abs_cdf(critical)) / (1 - abs_cdf(critical)) for p in p_values]
     result = p_curve(statistics=z_statistics_for(p_values))
     assert result.pp33_full == pytest.approx(expected, abs=1e-7)
 
@@ -287,9 +280,7 @@ def test_equivalent_statistics_give_the_same_curve():
     t_values, df = [2.4, 3.3, 2.8], 30
     r_values = [t / np.sqrt(df + t**2) for t in t_values]
     as_t = p_curve(statistics=[ReportedStatistic(kind="t", value=t, df=df) for t in t_values])
-    as_f = p_curve(
-        statistics=[ReportedStatistic(kind="F", value=t**2, df=1, df2=df) for t in t_values]
-    )
+    as_f = p_curve(statistics=[ReportedStatistic(kind="F", value=t**2, df=1, df2=df) for t in t_values])
     as_r = p_curve(statistics=[ReportedStatistic(kind="r", value=r, df=df) for r in r_values])
     for other in (as_f, as_r):
         assert other.p_values == pytest.approx(as_t.p_values, rel=1e-9)
@@ -297,8 +288,7 @@ def test_equivalent_statistics_give_the_same_curve():
     as_z = p_curve(statistics=z_statistics_for([0.01, 0.02, 0.003]))
     as_chi2 = p_curve(
         statistics=[
-            ReportedStatistic(kind="chi2", value=s.value**2, df=1)
-            for s in z_statistics_for([0.01, 0.02, 0.003])
+            ReportedStatistic(kind="chi2", value=s.value**2, df=1) for s in z_statistics_for([0.01, 0.02, 0.003])
         ]
     )
     assert as_chi2.pp33_full == pytest.approx(as_z.pp33_full, rel=1e-9)
@@ -320,9 +310,7 @@ def test_p_values_for_f_and_chi2_follow_scipy():
 def test_results_bunched_just_below_05_read_as_flat_not_right_skewed():
     # Constructed: t(40) values with p between .03 and .049 -- what p-hacking leaves behind.
     p_values = [0.049, 0.041, 0.038, 0.045, 0.033, 0.047]
-    statistics = [
-        ReportedStatistic(kind="t", value=float(stats.t.isf(p / 2, 40)), df=40) for p in p_values
-    ]
+    statistics = [ReportedStatistic(kind="t", value=float(stats.t.isf(p / 2, 40)), df=40) for p in p_values]
     result = p_curve(statistics=statistics)
     assert result.right_skew_full.p > 0.5
     assert result.flatness_full.p < 0.05
@@ -333,8 +321,7 @@ def test_p_curve_needs_three_significant_results():
     statistics = z_statistics_for([0.01, 0.03, 0.2, 0.5, 0.07])
     with pytest.raises(
         StatsInputError,
-        match=f"p-curve needs at least {MIN_SIGNIFICANT_PCURVE} results significant at p < .05; "
-        "got 2 of 5",
+        match=f"p-curve needs at least {MIN_SIGNIFICANT_PCURVE} results significant at p < .05; got 2 of 5",
     ):
         p_curve(statistics=statistics)
 
@@ -399,10 +386,7 @@ def test_selective_publication_of_a_null_effect_is_biased_and_detected():
         egger_flags += egger_test(y=published_y, v=published_v).p < 0.05
         tes_flags += excess_significance_test(y=published_y, v=published_v).chi2_p < 0.05
         curve = p_curve(
-            statistics=[
-                ReportedStatistic(kind="z", value=float(z))
-                for z in published_y / np.sqrt(published_v)
-            ]
+            statistics=[ReportedStatistic(kind="z", value=float(z)) for z in published_y / np.sqrt(published_v)]
         )
         pcurve_flat += curve.flatness_full.p < 0.05
         pcurve_not_right_skewed += curve.right_skew_full.p >= 0.05

@@ -44,9 +44,9 @@ def _ppv_from_table_2_cells(power, odds, alpha, bias):
     bias=st.floats(0, 1),
 )
 def test_ppv_equals_true_findings_over_all_findings(power, odds, alpha, bias):
-    assert positive_predictive_value(
-        power=power, pre_study_odds=odds, alpha=alpha, bias=bias
-    ) == pytest.approx(_ppv_from_table_2_cells(power, odds, alpha, bias), rel=1e-12)
+    assert positive_predictive_value(power=power, pre_study_odds=odds, alpha=alpha, bias=bias) == pytest.approx(
+        _ppv_from_table_2_cells(power, odds, alpha, bias), rel=1e-12
+    )
 
 
 @given(power=st.floats(0.01, 0.99), odds=st.floats(1e-4, 100), alpha=st.floats(0.001, 0.2))
@@ -54,9 +54,9 @@ def test_without_bias_ppv_is_bayes_rule(power, odds, alpha):
     prior = odds / (1 + odds)
     # Bayes' rule: P(true | significant) = prior power / (prior power + (1 - prior) alpha)
     expected = prior * power / (prior * power + (1 - prior) * alpha)
-    assert positive_predictive_value(
-        power=power, pre_study_odds=odds, alpha=alpha
-    ) == pytest.approx(expected, rel=1e-12)
+    assert positive_predictive_value(power=power, pre_study_odds=odds, alpha=alpha) == pytest.approx(
+        expected, rel=1e-12
+    )
 
 
 def test_rare_condition_screening_rule_of_thumb():

@@ -161,17 +161,11 @@ def test_borenstein_log_risk_ratio_and_variance():
     assert (log_rr.estimate, log_rr.variance) == pytest.approx((estimate, variance), rel=1e-12)
 
 
-@pytest.mark.parametrize(
-    ("function", "statistic"), [(log_odds_ratio, "odds-ratio"), (log_risk_ratio, "risk-ratio")]
-)
-@pytest.mark.parametrize(
-    "cells", [(0, 100, 10, 90), (5, 95, 0, 100), (5, 0, 10, 90), (0, 20, 0, 30)]
-)
+@pytest.mark.parametrize(("function", "statistic"), [(log_odds_ratio, "odds-ratio"), (log_risk_ratio, "risk-ratio")])
+@pytest.mark.parametrize("cells", [(0, 100, 10, 90), (5, 95, 0, 100), (5, 0, 10, 90), (0, 20, 0, 30)])
 def test_zero_cell_adds_half_to_every_cell_as_statsmodels_does(function, statistic, cells):
     events_1, nonevents_1, events_2, nonevents_2 = cells
-    result = function(
-        events_1=events_1, nonevents_1=nonevents_1, events_2=events_2, nonevents_2=nonevents_2
-    )
+    result = function(events_1=events_1, nonevents_1=nonevents_1, events_2=events_2, nonevents_2=nonevents_2)
     assert result.continuity_corrected
     # statsmodels effectsize_2proportions(zero_correction=0.5): 0.5 added to each cell of a
     # table with a zero (or full) cell.

@@ -28,9 +28,9 @@ def bcg_log_risk_ratios() -> tuple[np.ndarray, np.ndarray]:
     vaccinated_risk = trials["BCGTB"] / trials["BCGVacc"]
     unvaccinated_risk = trials["NoVaccTB"] / trials["NoVacc"]
     y = np.log(vaccinated_risk / unvaccinated_risk).to_numpy(dtype=float)
-    v = (
-        1 / trials["BCGTB"] - 1 / trials["BCGVacc"] + 1 / trials["NoVaccTB"] - 1 / trials["NoVacc"]
-    ).to_numpy(dtype=float)
+    v = (1 / trials["BCGTB"] - 1 / trials["BCGVacc"] + 1 / trials["NoVaccTB"] - 1 / trials["NoVacc"]).to_numpy(
+        dtype=float
+    )
     assert y.size == 13
     return y, v
 
@@ -118,9 +118,7 @@ def _negative_restricted_log_likelihood(tau2: float, y: np.ndarray, v: np.ndarra
     # Viechtbauer 2005, J Educ Behav Stat 30: 261 -- reference from memory).
     weights = 1 / (v + tau2)
     mu = np.sum(weights * y) / np.sum(weights)
-    return 0.5 * (
-        np.sum(np.log(v + tau2)) + np.log(np.sum(weights)) + np.sum(weights * (y - mu) ** 2)
-    )
+    return 0.5 * (np.sum(np.log(v + tau2)) + np.log(np.sum(weights)) + np.sum(weights * (y - mu) ** 2))
 
 
 def _reml_tau2_by_scipy(y: np.ndarray, v: np.ndarray) -> float:

@@ -105,9 +105,7 @@ def test_adjusted_values_keep_the_order_of_the_raw_p_values(p, method):
     assert np.all(np.diff(adjusted[order]) >= 0)
 
 
-@pytest.mark.parametrize(
-    "p_values", [[], [[0.1, 0.2]], [0.1, 1.2], [-0.01, 0.5], [0.1, float("nan")], "abc"]
-)
+@pytest.mark.parametrize("p_values", [[], [[0.1, 0.2]], [0.1, 1.2], [-0.01, 0.5], [0.1, float("nan")], "abc"])
 @pytest.mark.parametrize("method", sorted(ADJUSTERS))
 def test_impossible_p_value_lists_are_refused(p_values, method):
     with pytest.raises(StatsInputError) as error:

@@ -58,9 +58,7 @@ COHEN_1988_TABLE_2_4_1 = [
 
 
 @pytest.mark.parametrize(("d", "power", "sides", "table_n", "tolerance"), COHEN_1988_TABLE_2_4_1)
-def test_t_independent_n_matches_cohen_table_within_its_approximation(
-    d, power, sides, table_n, tolerance
-):
+def test_t_independent_n_matches_cohen_table_within_its_approximation(d, power, sides, table_n, tolerance):
     solution = power_t_independent(effect=d, power=power, sides=sides)
     assert abs(solution.n - table_n) <= tolerance
 
@@ -69,17 +67,13 @@ def test_t_independent_n_matches_cohen_table_within_its_approximation(
 def test_t_independent_n_is_statsmodels_exact_n_rounded_up(d, power, sides, table_n, tolerance):
     alternative = "two-sided" if sides == "two" else "larger"
     # statsmodels TTestIndPower: exact noncentral t, fractional n per group.
-    fractional = smp.TTestIndPower().solve_power(
-        effect_size=d, power=power, alpha=0.05, alternative=alternative
-    )
+    fractional = smp.TTestIndPower().solve_power(effect_size=d, power=power, alpha=0.05, alternative=alternative)
     solution = power_t_independent(effect=d, power=power, sides=sides)
     assert solution.n == math.ceil(fractional)
     assert solution.group_sizes == (solution.n, solution.n)
     assert solution.n_total == 2 * solution.n
     assert solution.power == pytest.approx(
-        smp.TTestIndPower().power(
-            effect_size=d, nobs1=solution.n, alpha=0.05, alternative=alternative
-        ),
+        smp.TTestIndPower().power(effect_size=d, nobs1=solution.n, alpha=0.05, alternative=alternative),
         rel=1e-10,
     )
     assert solution.method.startswith("exact noncentral t")
@@ -107,9 +101,7 @@ def test_t_independent_exact_n_for_power_80_is_394_64_26():
     ],
 )
 def test_t_independent_power_matches_r_pwr(d, n, sides, pwr_power):
-    assert power_t_independent(n=n, effect=d, sides=sides).power == pytest.approx(
-        pwr_power, rel=1e-10
-    )
+    assert power_t_independent(n=n, effect=d, sides=sides).power == pytest.approx(pwr_power, rel=1e-10)
 
 
 def test_t_independent_unequal_groups_match_r_pwr_t2n():
@@ -132,9 +124,7 @@ def test_t_independent_minimum_detectable_effect_has_target_power_in_statsmodels
     solution = power_t_independent(n=50, power=0.8)
     assert solution.solved_for == "effect"
     # statsmodels TTestIndPower evaluated at our effect gives back the target
-    assert smp.TTestIndPower().power(
-        effect_size=solution.effect, nobs1=50, alpha=0.05
-    ) == pytest.approx(0.8, rel=1e-9)
+    assert smp.TTestIndPower().power(effect_size=solution.effect, nobs1=50, alpha=0.05) == pytest.approx(0.8, rel=1e-9)
 
 
 # --- one-sample and paired t --------------------------------------------------------------------
@@ -143,8 +133,7 @@ def test_t_independent_minimum_detectable_effect_has_target_power_in_statsmodels
 def test_one_sample_exact_n_for_power_80_is_199_34_15():
     # Exact noncentral t, two-sided alpha .05; statsmodels TTestPower gives 198.15, 33.37, 14.30.
     expected = [
-        math.ceil(smp.TTestPower().solve_power(effect_size=d, power=0.8, alpha=0.05))
-        for d in SMALL_MEDIUM_LARGE_D
+        math.ceil(smp.TTestPower().solve_power(effect_size=d, power=0.8, alpha=0.05)) for d in SMALL_MEDIUM_LARGE_D
     ]
     assert expected == [199, 34, 15]
     assert [power_t_one_sample(effect=d, power=0.8).n for d in SMALL_MEDIUM_LARGE_D] == expected
@@ -153,9 +142,7 @@ def test_one_sample_exact_n_for_power_80_is_199_34_15():
 def test_paired_design_is_the_one_sample_test_on_differences():
     # statsmodels TTestPower is the one-sample/paired test; a paired design with d_z is it.
     paired = power_t_paired(n=25, effect=0.4)
-    assert paired.power == pytest.approx(
-        smp.TTestPower().power(effect_size=0.4, nobs=25, alpha=0.05), rel=1e-10
-    )
+    assert paired.power == pytest.approx(smp.TTestPower().power(effect_size=0.4, nobs=25, alpha=0.05), rel=1e-10)
     assert "paired" in paired.method
 
 
@@ -171,9 +158,7 @@ def test_paired_design_is_the_one_sample_test_on_differences():
     ],
 )
 def test_one_sample_power_matches_r_pwr(d, n, sides, pwr_power):
-    assert power_t_one_sample(n=n, effect=d, sides=sides).power == pytest.approx(
-        pwr_power, rel=1e-10
-    )
+    assert power_t_one_sample(n=n, effect=d, sides=sides).power == pytest.approx(pwr_power, rel=1e-10)
 
 
 # --- two proportions (Cohen's h) ---------------------------------------------------------------
@@ -181,15 +166,11 @@ def test_one_sample_power_matches_r_pwr(d, n, sides, pwr_power):
 
 def test_proportions_power_matches_r_pwr_2p():
     # R pwr.2p.test(h=0.01, n=80) = 0.05045832927039234, via statsmodels test_power.py
-    assert power_proportions(n=80, effect=0.01).power == pytest.approx(
-        0.05045832927039234, rel=1e-10
-    )
+    assert power_proportions(n=80, effect=0.01).power == pytest.approx(0.05045832927039234, rel=1e-10)
     # R pwr.2p.test(h=0.3, n=80) = 0.475100870572638, same source
     assert power_proportions(n=80, effect=0.3).power == pytest.approx(0.475100870572638, rel=1e-10)
     # R pwr.2p.test(h=0.01, n=80, alternative="greater") = 0.056869534873146124, same source
-    assert power_proportions(n=80, effect=0.01, sides="one").power == pytest.approx(
-        0.056869534873146124, rel=1e-10
-    )
+    assert power_proportions(n=80, effect=0.01, sides="one").power == pytest.approx(0.056869534873146124, rel=1e-10)
 
 
 @pytest.mark.parametrize(("h", "table_n"), [(0.2, 392), (0.5, 63), (0.8, 25)])
@@ -199,9 +180,7 @@ def test_proportions_n_matches_cohen_1992_and_statsmodels(h, table_n):
     # for two proportions, alpha .05 two-sided, power .80. Cohen rounds to nearest; we round up.
     assert abs(solution.n - table_n) <= 1
     # statsmodels NormalIndPower (same normal approximation), rounded up
-    assert solution.n == math.ceil(
-        smp.NormalIndPower().solve_power(effect_size=h, power=0.8, alpha=0.05)
-    )
+    assert solution.n == math.ceil(smp.NormalIndPower().solve_power(effect_size=h, power=0.8, alpha=0.05))
     assert solution.method.startswith("normal approximation")
 
 
@@ -218,9 +197,9 @@ def _hotelling_density(r, rho, n):
         - 0.5 * math.log(2 * math.pi)
         - special.gammaln(n - 0.5)
     )
-    return np.exp(
-        log_constant + (n - 4) / 2 * np.log1p(-(r**2)) - (n - 1.5) * np.log1p(-rho * r)
-    ) * special.hyp2f1(0.5, 0.5, n - 0.5, (1 + rho * r) / 2)
+    return np.exp(log_constant + (n - 4) / 2 * np.log1p(-(r**2)) - (n - 1.5) * np.log1p(-rho * r)) * special.hyp2f1(
+        0.5, 0.5, n - 0.5, (1 + rho * r) / 2
+    )
 
 
 def _hotelling_power(rho, n, alpha):
@@ -231,13 +210,9 @@ def _hotelling_power(rho, n, alpha):
     return upper + lower
 
 
-@pytest.mark.parametrize(
-    ("rho", "n"), [(0.1, 782), (0.3, 84), (0.5, 29), (0.3, 5), (0.7, 12), (0.05, 300)]
-)
+@pytest.mark.parametrize(("rho", "n"), [(0.1, 782), (0.3, 84), (0.5, 29), (0.3, 5), (0.7, 12), (0.05, 300)])
 def test_correlation_exact_power_equals_integral_of_hotellings_exact_density(rho, n):
-    assert power_correlation_exact(n=n, effect=rho).power == pytest.approx(
-        _hotelling_power(rho, n, 0.05), abs=1e-9
-    )
+    assert power_correlation_exact(n=n, effect=rho).power == pytest.approx(_hotelling_power(rho, n, 0.05), abs=1e-9)
 
 
 def test_correlation_exact_n_for_power_80_is_782_84_29():
@@ -306,18 +281,14 @@ def test_anova_three_groups_matches_cohen_1992_within_one(f, table_n):
 
 def test_chi_square_power_matches_r_pwr_chisq():
     # R pwr.chisq.test(w=0.1, N=5, df=4) = 0.05246644635810126, via statsmodels test_power.py
-    assert power_chi_square(n=5, effect=0.1, df=4).power == pytest.approx(
-        0.05246644635810126, rel=1e-10
-    )
+    assert power_chi_square(n=5, effect=0.1, df=4).power == pytest.approx(0.05246644635810126, rel=1e-10)
 
 
 @pytest.mark.parametrize(("w", "df"), [(0.1, 1), (0.3, 1), (0.5, 1), (0.3, 4)])
 def test_chi_square_n_matches_statsmodels(w, df):
     solution = power_chi_square(effect=w, power=0.8, df=df)
     # statsmodels GofChisquarePower: df = n_bins - 1
-    fractional = smp.GofChisquarePower().solve_power(
-        effect_size=w, power=0.8, alpha=0.05, n_bins=df + 1
-    )
+    fractional = smp.GofChisquarePower().solve_power(effect_size=w, power=0.8, alpha=0.05, n_bins=df + 1)
     assert solution.n == math.ceil(fractional)
     assert solution.sides == "upper"
 

@@ -51,9 +51,7 @@ def test_table_critical_values_give_p_of_05_within_the_tables_rounding(kind, wri
         "chi2": lambda: stats.chi2.isf(0.05, df1),
     }[kind]()
     assert round(exact, len(written.split(".")[1])) == value
-    assert p_from_statistic(kind=kind, value=exact, df1=df1, df2=df2) == pytest.approx(
-        0.05, rel=1e-10
-    )
+    assert p_from_statistic(kind=kind, value=exact, df1=df1, df2=df2) == pytest.approx(0.05, rel=1e-10)
 
 
 def test_sleep_data_paired_t_p_matches_r_and_scipy():
@@ -87,10 +85,7 @@ def test_likelihood_ratio_chi_square_for_party_identification_by_sex():
     assert g_squared.dof == 2
     p = p_from_statistic(kind="chi2", value=g_squared.statistic, df1=2)
     assert p == pytest.approx(g_squared.pvalue, rel=1e-12)
-    assert (
-        p_consistency(statistic_kind="chi2", value="7.00", df1=2, p_reported="p = .03").verdict
-        == "consistent"
-    )
+    assert p_consistency(statistic_kind="chi2", value="7.00", df1=2, p_reported="p = .03").verdict == "consistent"
 
 
 def test_correlation_p_matches_scipy_pearsonr():
@@ -98,9 +93,7 @@ def test_correlation_p_matches_scipy_pearsonr():
     x = rng.standard_normal(23)
     y = 0.4 * x + rng.standard_normal(23)
     result = stats.pearsonr(x, y)  # SciPy: exact null distribution of r
-    assert p_from_statistic(kind="r", value=result.statistic, n=23) == pytest.approx(
-        result.pvalue, rel=1e-10
-    )
+    assert p_from_statistic(kind="r", value=result.statistic, n=23) == pytest.approx(result.pvalue, rel=1e-10)
 
 
 def test_one_sided_p_matches_scipy_directional_test():
@@ -151,9 +144,7 @@ def test_p_never_rises_as_the_statistic_grows(a, b, df, kind):
 @given(a=st.floats(0, 0.999), b=st.floats(0, 0.999), n=st.integers(3, 1000))
 def test_p_never_rises_as_r_grows(a, b, n):
     small, large = sorted((a, b))
-    assert p_from_statistic(kind="r", value=large, n=n) <= p_from_statistic(
-        kind="r", value=small, n=n
-    )
+    assert p_from_statistic(kind="r", value=large, n=n) <= p_from_statistic(kind="r", value=small, n=n)
 
 
 # --- parsing reported p ---------------------------------------------------------------------------
@@ -201,9 +192,7 @@ def test_not_significant_uses_the_given_alpha():
     assert parse_reported_p(text="n.s.", alpha=0.01).lower == 0.01
 
 
-@pytest.mark.parametrize(
-    "text", ["", "significant", "p = ", "p = .03x", "p = 1.5", "p < 0", "p = -0.2", "0.03 0.04"]
-)
+@pytest.mark.parametrize("text", ["", "significant", "p = ", "p = .03x", "p = 1.5", "p < 0", "p = -0.2", "0.03 0.04"])
 def test_unreadable_or_impossible_p_text_is_refused_with_examples(text):
     with pytest.raises(StatsInputError) as error:
         parse_reported_p(text=text)
@@ -232,9 +221,7 @@ def test_rounding_of_the_statistic_is_allowed_for_before_calling_a_report_incons
     # reported as 2.20 may be anything in [2.195, 2.205), whose p-values reach below .0359.
     exact = p_consistency(statistic_kind="t", value=2.2, df1=28, p_reported="p = .0359")
     rounded = p_consistency(statistic_kind="t", value="2.20", df1=28, p_reported="p = .0359")
-    also_rounded = p_consistency(
-        statistic_kind="t", value=2.2, decimals=2, df1=28, p_reported="p = .0359"
-    )
+    also_rounded = p_consistency(statistic_kind="t", value=2.2, decimals=2, df1=28, p_reported="p = .0359")
     assert exact.verdict == "inconsistent"
     assert rounded.verdict == "consistent" and also_rounded.verdict == "consistent"
     assert rounded.recomputed_low == pytest.approx(2 * stats.t.sf(2.205, 28), rel=1e-12)
@@ -265,10 +252,7 @@ def test_report_straddling_alpha_cannot_change_a_decision():
 
 def test_sleep_data_report_is_consistent_as_r_prints_it():
     # R prints t = -4.0621, df = 9, p-value = 0.002833 for the paired sleep data (memory).
-    assert (
-        p_consistency(statistic_kind="t", value="-4.0621", df1=9, p_reported="p = 0.002833").verdict
-        == "consistent"
-    )
+    assert p_consistency(statistic_kind="t", value="-4.0621", df1=9, p_reported="p = 0.002833").verdict == "consistent"
 
 
 def test_statistic_straddling_zero_allows_p_up_to_one():

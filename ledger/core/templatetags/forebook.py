@@ -1,10 +1,18 @@
 """Template helpers: state and verdict badges (words and a symbol, never colour alone), labels."""
+
 from django import template
 from django.utils.html import format_html
 
 from ledger.plans.models import StudyState
 from ledger.plans.vocabulary import (
-    Allocation, Blinding, Direction, Multiplicity, OutcomeRole, PowerDesign, Sides, TestFamily,
+    Allocation,
+    Blinding,
+    Direction,
+    Multiplicity,
+    OutcomeRole,
+    PowerDesign,
+    Sides,
+    TestFamily,
 )
 from ledger.results.models import Verdict
 from ledger.results.vocabulary import EffectKind, StatisticKind
@@ -45,7 +53,9 @@ def state_badge(state: str):
     label = StudyState(state).label if state in StudyState.values else state
     return format_html(
         '<span class="badge state-{}"><span aria-hidden="true">{}</span> {}</span>',
-        state, STATE_SYMBOLS.get(state, "•"), label,
+        state,
+        STATE_SYMBOLS.get(state, "•"),
+        label,
     )
 
 
@@ -54,7 +64,9 @@ def verdict_badge(verdict: str):
     label = Verdict(verdict).label if verdict in Verdict.values else verdict
     return format_html(
         '<span class="badge verdict-{}"><span aria-hidden="true">{}</span> {}</span>',
-        verdict, VERDICT_SYMBOLS.get(verdict, "•"), label,
+        verdict,
+        VERDICT_SYMBOLS.get(verdict, "•"),
+        label,
     )
 
 

@@ -4,6 +4,7 @@ Django empties the database after each transactional test (and after live-server
 flush drops the ledger triggers, empties the tables and reinstalls the same triggers, all in one
 transaction. Only these test-only database wrappers do this; production settings cannot load them.
 """
+
 from django.db import transaction
 
 from ledger.chain import triggers

@@ -20,7 +20,9 @@ class Command(BaseCommand):
 
         report = verify_ledger(progress=report_progress if progress else None)
         if report.ok:
-            self.stdout.write(f"ok: {report.count} entries; head {report.head_hash}; merkle root {report.root_hash.hex()}")
+            self.stdout.write(
+                f"ok: {report.count} entries; head {report.head_hash}; merkle root {report.root_hash.hex()}"
+            )
             return
         self.stdout.write(f"FAILED at entry {report.bad_seq}: {report.problem}")
         self.stdout.write(f"({report.count} entries before it verified)")

@@ -14,7 +14,8 @@ class Command(BaseCommand):
         studies = Study.objects.select_related("lab").order_by("lab__slug", "created_at", "code")
         if lab:
             if not Lab.objects.filter(slug=lab).exists():
-                raise CommandError(f"No lab with slug {lab!r}. Known labs: {', '.join(Lab.objects.values_list('slug', flat=True)) or 'none'}.")
+                known = ", ".join(Lab.objects.values_list("slug", flat=True)) or "none"
+                raise CommandError(f"No lab with slug {lab!r}. Known labs: {known}.")
             studies = studies.filter(lab__slug=lab)
         for study in studies:
             self.stdout.write(f"{study.code}\t{study.state}\t{study.title}")

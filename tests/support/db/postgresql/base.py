@@ -1,4 +1,5 @@
 """PostgreSQL for the test suite only: Django's backend plus a flush that lifts the ledger triggers."""
+
 from django.db.backends.postgresql import base
 
 from tests.support.db.flush import TriggerLiftingFlushMixin

@@ -1,4 +1,5 @@
 """SQLite for the test suite only: Django's backend plus a flush that lifts the ledger triggers."""
+
 from django.db.backends.sqlite3 import base
 
 from tests.support.db.flush import TriggerLiftingFlushMixin
