@@ -15,10 +15,13 @@ GENESIS = "0" * 64
 # Tables whose rows are never changed or removed once written.
 APPEND_ONLY_TABLES = ("chain_entry", "chain_merklenode")
 
+# Each function pins its search_path to the ledger's schema with pg_temp last: otherwise a
+# temporary table named chain_entry (which any role with TEMP may create) would be searched first
+# and could stand in for the real tip in the checks below.
 POSTGRES_FUNCTIONS = [
     """
     CREATE OR REPLACE FUNCTION forebook_refuse_change() RETURNS trigger
-    LANGUAGE plpgsql AS $$
+    LANGUAGE plpgsql SET search_path = pg_catalog, {schema}, pg_temp AS $$
     BEGIN
         RAISE EXCEPTION 'forebook ledger: % on % is refused: ledger rows are append-only',
             TG_OP, TG_TABLE_NAME
@@ -27,7 +30,7 @@ POSTGRES_FUNCTIONS = [
     """,
     f"""
     CREATE OR REPLACE FUNCTION forebook_entry_extends_tip() RETURNS trigger
-    LANGUAGE plpgsql AS $$
+    LANGUAGE plpgsql SET search_path = pg_catalog, {{schema}}, pg_temp AS $$
     DECLARE
         tip_hash text;
     BEGIN
@@ -45,7 +48,7 @@ POSTGRES_FUNCTIONS = [
     """,
     f"""
     CREATE OR REPLACE FUNCTION forebook_head_matches_tip() RETURNS trigger
-    LANGUAGE plpgsql AS $$
+    LANGUAGE plpgsql SET search_path = pg_catalog, {{schema}}, pg_temp AS $$
     DECLARE
         tip_hash text;
     BEGIN
@@ -125,10 +128,15 @@ SQLITE_TRIGGERS = {
 }
 
 
-def install_statements(vendor: str) -> list[str]:
-    """Idempotent SQL that (re)creates every ledger trigger on this database vendor."""
+def install_statements(vendor: str, *, schema: str = "public") -> list[str]:
+    """Idempotent SQL that (re)creates every ledger trigger on this database vendor.
+
+    ``schema`` is the PostgreSQL schema holding the ledger tables (see ``ledger_schema``).
+    """
     if vendor == "postgresql":
-        statements = [sql.strip() for sql in POSTGRES_FUNCTIONS]
+        if not schema.replace("_", "").isalnum():
+            raise ValueError(f"Unexpected schema name {schema!r}; ledger tables must live in a plainly named schema.")
+        statements = [sql.replace("{schema}", schema).strip() for sql in POSTGRES_FUNCTIONS]
         for name, (table, event, level, function) in POSTGRES_TRIGGERS.items():
             statements += [
                 f"DROP TRIGGER IF EXISTS {name} ON {table}",
@@ -156,3 +164,12 @@ def drop_statements(vendor: str) -> list[str]:
     if vendor == "sqlite":
         return [f"DROP TRIGGER IF EXISTS {name}" for name in SQLITE_TRIGGERS]
     raise NotImplementedError(f"No ledger triggers for {vendor!r}.")
+
+
+def ledger_schema(connection) -> str:
+    """The schema the ledger tables were created in (PostgreSQL); SQLite has only "main"."""
+    if connection.vendor != "postgresql":
+        return "main"
+    with connection.cursor() as cursor:
+        cursor.execute("SELECT current_schema()")
+        return cursor.fetchone()[0]

@@ -20,8 +20,19 @@ from ledger.plans import services as plan_services
 from ledger.plans.content import empty_content
 from ledger.plans.models import Study
 from ledger.results import services as result_services
+from ledger.stats.pvalues import p_from_statistic
 
 DEMO_LAB_SLUG = "lantern-row"
+REPORT_AS_PLANNED = {
+    "stopping_rule_followed": True,
+    "stopping_note": "",
+    "exclusions_as_planned": True,
+    "exclusions_applied": "",
+    "summary": "",
+}
+SWITCH_EXPLANATION = (
+    "Recall of the items themselves hit the ceiling in most sessions, so the write-up led with recall order instead."
+)
 DEMO_PASSWORD = "lantern-demo-2026"
 PEOPLE = [
     # username, first, last, role, ORCID iD (invented, with a valid check digit)
@@ -323,7 +334,18 @@ def result_rows(spec: DemoStudy) -> list[dict[str, Any]]:
         return [
             {**primary, "hypothesis": "", "outcome": "O2", "comment": "Reported as the main result in the write-up."}
         ]
-    return [primary]
+    secondary_t = 0.52
+    secondary = {
+        **primary,
+        "hypothesis": "",
+        "outcome": "O2",
+        "reported_as": "secondary",
+        "statistic": secondary_t,
+        "p_reported": f"{p_from_statistic(kind='t', value=secondary_t, df1=df):.2f}",
+        "effect_value": round(2 * secondary_t / (df**0.5), 2),
+        "verdict": "null",
+    }
+    return [primary, secondary]
 
 
 @transaction.atomic
@@ -391,17 +413,12 @@ def _build_study(spec: DemoStudy, *, manager: Membership, investigator: Membersh
     plan_services.collection_start(member=investigator, study=study, started_on=started)
     if spec.target == "collecting":
         return
+    rows = result_rows(spec)
+    preview = result_services.result_preview(study=study, rows=rows, report=REPORT_AS_PLANNED)
+    # The demo's one switched outcome is explained the way an investigator might; nothing else needs it.
+    explanations = {finding.identity: SWITCH_EXPLANATION for finding in preview.unexplained({})}
     result_services.result_record(
-        member=investigator,
-        study=study,
-        rows=result_rows(spec),
-        report={
-            "stopping_rule_followed": True,
-            "stopping_note": "",
-            "exclusions_as_planned": True,
-            "exclusions_applied": "",
-            "summary": "",
-        },
+        member=investigator, study=study, rows=rows, report=REPORT_AS_PLANNED, explanations=explanations
     )
     if spec.publication:
         status = "not_submitted" if spec.publication == "not_submitted" else "published"

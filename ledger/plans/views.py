@@ -29,6 +29,7 @@ from ledger.plans.selectors import (
     studies_visible_to,
     study_draft,
 )
+from ledger.results.comparison import plan_vs_report, study_findings
 from ledger.results.selectors import study_result
 from ledger.stats.errors import StatsInputError
 
@@ -79,13 +80,17 @@ class StudyDetailView(StudyMixin, TemplateView):
         versions = plan_versions(study=self.study)
         latest = versions[-1] if versions else None
         result = study_result(study=self.study)
+        result_doc = entry_payload(result.entry) if result else None
+        plan = sealed_plan(latest) if latest else None
         context.update(
             versions=versions,
-            plan=sealed_plan(latest) if latest else None,
+            plan=plan,
             draft=study_draft(study=self.study),
             timeline=study_entries(study=self.study),
             result=result,
-            result_doc=entry_payload(result.entry) if result else None,
+            result_doc=result_doc,
+            comparison=plan_vs_report(plan=plan, result=result_doc) if result_doc else None,
+            findings=study_findings(study=self.study),
         )
         return context
 

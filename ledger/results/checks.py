@@ -12,6 +12,8 @@ from typing import Any
 from ledger.stats.errors import StatsInputError
 from ledger.stats.pvalues import p_consistency
 
+# A one-sided test's p is the area in the predicted tail; a positive statistic means "increase".
+PREDICTED_TAIL = {"increase": "upper", "decrease": "lower"}
 # Verdicts that must be confirmed (or corrected) before the result can be sealed.
 NEEDS_CONFIRMATION = frozenset({"inconsistent", "decision_changing"})
 VERDICT_LABELS = {
@@ -49,6 +51,7 @@ def row_p_check(row: dict[str, Any]) -> dict[str, Any] | None:
             df2=statistic.get("df2"),
             n=row.get("n_analysed"),
             sides=row.get("sides") or "two",
+            tail=PREDICTED_TAIL.get(row.get("direction"), "observed"),
             p_reported=row["p_reported"],
             alpha=row.get("alpha") or 0.05,
         )

@@ -169,3 +169,8 @@ class ResultEditor:
 
     def cleaned_rows(self) -> list[dict]:
         return [f.cleaned_data for f in self.rows.forms if f.cleaned_data and f not in self.rows.deleted_forms]
+
+
+class FindingExplanationForm(forms.Form):
+    identity = forms.CharField(max_length=200, widget=forms.HiddenInput)
+    explanation = forms.CharField(max_length=10000, widget=TEXTAREA_SHORT)

@@ -7,4 +7,5 @@ urlpatterns = [
     path("results/", views.ResultRecordView.as_view(), name="record"),
     path("results/check/", views.ResultCheckView.as_view(), name="check"),
     path("publication/", views.PublicationLinkView.as_view(), name="publication"),
+    path("explain/", views.FindingExplainView.as_view(), name="explain"),
 ]

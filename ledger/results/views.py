@@ -7,21 +7,19 @@ from django.views.generic import TemplateView, View
 
 from ledger.core.errors import ActionRefused
 from ledger.labs.mixins import StudyMixin
-from ledger.plans.models import PlanVersion, StudyState
-from ledger.plans.selectors import sealed_plan
+from ledger.plans.models import StudyState
 from ledger.plans.views import StudyActionView
 from ledger.results import services
 from ledger.results.checks import row_p_check
-from ledger.results.forms import PublicationForm, ResultEditor, ResultRowForm
+from ledger.results.comparison import current_plan
+from ledger.results.forms import FindingExplanationForm, PublicationForm, ResultEditor, ResultRowForm
+
+EXPLAIN_PREFIX = "explain:"
 
 
 class ResultRecordView(StudyMixin, TemplateView):
     capability = "can_record_results"
     template_name = "results/result_record.html"
-
-    def current_plan(self) -> dict:
-        version = PlanVersion.objects.select_related("entry").get(study=self.study, number=self.study.plan_version)
-        return sealed_plan(version)
 
     def get(self, request, *args, **kwargs):
         if self.study.state != StudyState.COLLECTING:
@@ -38,7 +36,7 @@ class ResultRecordView(StudyMixin, TemplateView):
 
     def get_context_data(self, **kwargs):
         context = super().get_context_data(**kwargs)
-        plan = self.current_plan()
+        plan = current_plan(self.study)
         context.setdefault("editor", ResultEditor(plan=plan))
         context["plan"] = plan
         return context
@@ -47,29 +45,46 @@ class ResultRecordView(StudyMixin, TemplateView):
         if self.study.state != StudyState.COLLECTING:
             messages.info(request, self.not_open_message())
             return redirect(self.study.get_absolute_url())
-        editor = ResultEditor(plan=self.current_plan(), data=request.POST)
+        editor = ResultEditor(plan=current_plan(self.study), data=request.POST)
         if not editor.is_valid():
             messages.error(request, "Some fields need attention; nothing was sealed.")
             return self.render_to_response(self.get_context_data(editor=editor))
-        rows = editor.cleaned_rows()
+        rows, report = editor.cleaned_rows(), editor.report.cleaned_data
+        explanations = explanations_from(request.POST)
+        if "preview" in request.POST:
+            return self.render_preview(editor, rows, report, explanations)
         try:
             result = services.result_record(
                 member=self.member,
                 study=self.study,
                 rows=rows,
-                report=editor.report.cleaned_data,
-                confirm_checks=editor.report.cleaned_data["confirm_checks"],
+                report=report,
+                confirm_checks=report["confirm_checks"],
+                explanations=explanations,
             )
         except ActionRefused as refusal:
             messages.error(request, refusal.message)
-            preview = services.result_preview(study=self.study, rows=rows)
-            return self.render_to_response(
-                self.get_context_data(
-                    editor=editor, checks=preview.checks, needs_confirmation=bool(preview.unconfirmed)
-                )
-            )
+            return self.render_preview(editor, rows, report, explanations)
         messages.success(request, f"Results sealed as ledger entry #{result.entry.seq}.")
         return redirect(self.study.get_absolute_url())
+
+    def render_preview(self, editor, rows, report, explanations):
+        """The form again, with the p-value checks and the deviations from the plan, nothing sealed."""
+        preview = services.result_preview(study=self.study, rows=rows, report=report)
+        return self.render_to_response(
+            self.get_context_data(
+                editor=editor,
+                checks=preview.checks,
+                needs_confirmation=bool(preview.unconfirmed),
+                findings=[(finding, explanations.get(finding.identity, "")) for finding in preview.findings],
+                previewed=True,
+            )
+        )
+
+
+def explanations_from(data) -> dict[str, str]:
+    """Explanations typed on the result form: fields named "explain:<finding identity>"."""
+    return {name.removeprefix(EXPLAIN_PREFIX): text for name, text in data.items() if name.startswith(EXPLAIN_PREFIX)}
 
 
 class ResultCheckView(StudyMixin, View):
@@ -125,3 +140,14 @@ class PublicationLinkView(StudyActionView):
 
     def perform(self, data):
         services.publication_link_add(member=self.member, study=self.study, status=data["status"], doi=data["doi"])
+
+
+class FindingExplainView(StudyActionView):
+    capability = "can_record_results"
+    form_class = FindingExplanationForm
+    success_message = "Explanation sealed."
+
+    def perform(self, data):
+        services.finding_explain(
+            member=self.member, study=self.study, identity=data["identity"], text=data["explanation"]
+        )

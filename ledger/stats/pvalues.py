@@ -32,6 +32,8 @@ from ledger.stats._inputs import Sides
 from ledger.stats.errors import StatsInputError
 
 StatisticKind = Literal["t", "F", "chi2", "z", "r"]
+Tail = Literal["observed", "upper", "lower"]
+TAILS: tuple[str, ...] = ("observed", "upper", "lower")
 STATISTIC_KINDS: tuple[str, ...] = ("t", "F", "chi2", "z", "r")
 Verdict = Literal["consistent", "inconsistent", "decision_changing"]
 
@@ -64,8 +66,14 @@ def p_from_statistic(
     df2: float | np.ndarray | None = None,
     n: int | np.ndarray | None = None,
     sides: Sides = "two",
+    tail: Tail = "observed",
 ) -> float | np.ndarray:
     """The p-value of a reported statistic.
+
+    ``tail`` matters only for a one-sided t, z or r: ``"observed"`` takes the tail the statistic
+    fell in (the smaller p); ``"upper"`` or ``"lower"`` take the tail the test predicted, so a
+    statistic on the wrong side gets its large one-sided p (t = -2 tested for an increase gives
+    p near .97, not .03).
 
     * ``"t"``: t with ``df1`` degrees of freedom (fractional df, as from Welch's test, are fine).
     * ``"F"``: F(``df1``, ``df2``), upper tail.
@@ -94,17 +102,24 @@ def p_from_statistic(
         else:
             p = stats.chi2.sf(statistic, _degrees(df1, field="df1"))
         return _scalar_or_array(np.asarray(p, dtype=float), value, df1, df2)
+    if tail not in TAILS:
+        raise StatsInputError(f"tail must be one of {', '.join(TAILS)}; got {tail!r}", field="tail")
+    # The statistic measured towards the tail whose area is the p-value.
+    if sides == "two" or tail == "observed":
+        towards = np.abs(statistic)
+    else:
+        towards = statistic if tail == "upper" else -statistic
     if kind == "z":
-        tail = stats.norm.sf(np.abs(statistic))
+        area = stats.norm.sf(towards)
     elif kind == "t":
-        tail = stats.t.sf(np.abs(statistic), _degrees(df1, field="df1"))
+        area = stats.t.sf(towards, _degrees(df1, field="df1"))
     else:
         if np.any(np.abs(statistic) >= 1):
             raise StatsInputError(f"r must lie between -1 and 1 (exclusive); got {value!r}", field="value")
         pairs = _degrees(n, field="n", minimum=2)
-        t_statistic = np.abs(statistic) * np.sqrt((pairs - 2) / (1 - statistic**2))
-        tail = stats.t.sf(t_statistic, pairs - 2)
-    p = 2 * tail if sides == "two" else tail
+        t_statistic = towards * np.sqrt((pairs - 2) / (1 - statistic**2))
+        area = stats.t.sf(t_statistic, pairs - 2)
+    p = 2 * area if sides == "two" else area
     return _scalar_or_array(np.asarray(p, dtype=float), value, df1, n)
 
 
@@ -295,6 +310,18 @@ def _rounding_range(kind: str, value: float, decimals: int | None) -> tuple[floa
     return smallest, largest
 
 
+def _signed_rounding_ends(kind: str, value: float, decimals: int | None) -> tuple[float, float]:
+    """The smallest and largest signed statistic that round to ``value``."""
+    if decimals is None:
+        return value, value
+    half_unit = 0.5 * 10.0**-decimals
+    low, high = value - half_unit, value + half_unit
+    if kind == "r":
+        bound = math.nextafter(1.0, 0.0)
+        low, high = max(low, -bound), min(high, bound)
+    return low, high
+
+
 def p_consistency(
     *,
     statistic_kind: StatisticKind,
@@ -306,8 +333,12 @@ def p_consistency(
     p_reported: str,
     alpha: float = 0.05,
     decimals: int | None = None,
+    tail: Tail = "observed",
 ) -> PConsistency:
     """Check a reported p against the p recomputed from its statistic.
+
+    ``tail`` is passed on to :func:`p_from_statistic`: give the predicted tail for a one-sided
+    test, so that a statistic on the wrong side is checked against its large p.
 
     Rule: the statistic stands for every value that rounds to it. Given as text ("2.20") or
     with ``decimals``, a statistic reported to k decimals covers value +/- 0.5 * 10^-k, and
@@ -325,13 +356,21 @@ def p_consistency(
     alpha = _inputs.open_unit(alpha, field="alpha")
     statistic, decimals = _statistic_and_decimals(value, decimals)
     reported = parse_reported_p(text=p_reported, alpha=alpha)
-    smallest, largest = _rounding_range(statistic_kind, statistic, decimals)
+    def p_of(statistic_value: float) -> float:
+        return float(
+            p_from_statistic(
+                kind=statistic_kind, value=statistic_value, df1=df1, df2=df2, n=n, sides=sides, tail=tail
+            )
+        )
 
-    def p_of(magnitude: float) -> float:
-        return float(p_from_statistic(kind=statistic_kind, value=magnitude, df1=df1, df2=df2, n=n, sides=sides))
-
-    recomputed = p_of(statistic)  # validates the statistic, its df and the sides
-    low, high = p_of(largest), p_of(smallest)
+    recomputed = p_of(statistic)  # validates the statistic, its df, the sides and the tail
+    if sides == "one" and tail != "observed" and statistic_kind in ("t", "z", "r"):
+        # p is monotone in the signed statistic: the two ends of its rounding give the p range.
+        ends = [p_of(end) for end in _signed_rounding_ends(statistic_kind, statistic, decimals)]
+        low, high = min(ends), max(ends)
+    else:
+        smallest, largest = _rounding_range(statistic_kind, statistic, decimals)
+        low, high = p_of(largest), p_of(smallest)
     above_lower = high >= reported.lower if reported.lower_closed else high > reported.lower
     below_upper = low <= reported.upper if reported.upper_closed else low < reported.upper
     recomputed_below = high < alpha
@@ -343,7 +382,12 @@ def p_consistency(
     else:
         verdict = "inconsistent"
 
-    tails = "upper-tail" if statistic_kind in ("F", "chi2") else f"{sides}-sided"
+    if statistic_kind in ("F", "chi2"):
+        tails = "upper-tail"
+    elif sides == "one" and tail != "observed":
+        tails = f"one-sided ({tail}-tail)"
+    else:
+        tails = f"{sides}-sided"
     shown = value if isinstance(value, str) else f"{statistic:g}"
     span = "" if low == high else f" (from {low:.4g} to {high:.4g} allowing for its rounding)"
     findings = {

@@ -97,3 +97,43 @@ document.addEventListener("DOMContentLoaded", () => {
   if (power) setUpLiveOutput(power, power.closest("form"), "#sample-size input, #sample-size select");
   document.querySelectorAll("output.live-check").forEach(setUpLiveCheck);
 });
+
+// Signed record exports on the study page: poll each unfinished export's status until it is
+// ready (show the download link) or failed (show the error). Without JS, reloading shows the same.
+const RECORD_POLL_MS = 1500;
+
+function showRecordStatus(item, data) {
+  item.querySelector(".record-stage").textContent = data.finished ? data.status_label : (data.stage || data.status_label);
+  const progress = item.querySelector(".record-progress");
+  progress.value = data.progress;
+  progress.textContent = `${data.progress} %`;
+  progress.hidden = data.finished;
+  const download = item.querySelector(".record-download");
+  if (data.download_url) download.href = data.download_url;
+  download.hidden = !data.download_url;
+  item.querySelector(".record-expiry").hidden = !data.download_url;
+  const error = item.querySelector(".record-error");
+  error.textContent = data.error || "";
+  error.hidden = !data.error;
+}
+
+function pollRecordExport(item) {
+  const poll = async () => {
+    try {
+      const response = await fetch(item.dataset.recordStatus, { headers: { Accept: "application/json" } });
+      if (!response.ok) throw new Error(`status ${response.status}`);
+      const data = await response.json();
+      showRecordStatus(item, data);
+      item.dataset.finished = String(data.finished);
+      if (!data.finished) setTimeout(poll, RECORD_POLL_MS);
+    } catch (error) {
+      const stage = item.querySelector(".record-stage");
+      stage.textContent = "Could not reach the server; reload the page to see the export's progress.";
+    }
+  };
+  setTimeout(poll, RECORD_POLL_MS);
+}
+
+document.addEventListener("DOMContentLoaded", () => {
+  document.querySelectorAll("[data-record-status][data-finished='false']").forEach(pollRecordExport);
+});

@@ -115,3 +115,23 @@ def test_sqlite_triggers_refuse_change_after_a_real_migration(tmp_path):
         with pytest.raises(sqlite3.IntegrityError, match="forebook ledger"):
             db.execute(sql)
     assert db.execute("SELECT count(*) FROM chain_entry").fetchone() == (1,)
+
+
+@pytest.mark.django_db
+@pytest.mark.postgres
+def test_a_temporary_table_cannot_stand_in_for_the_chain_tip(two_entries):
+    # Without a pinned search_path a session's temporary chain_entry would be found first by the
+    # INSERT trigger, and a forged tip there would let a fork through.
+    forged_tip = "e" * 64
+    with connection.cursor() as cursor:
+        cursor.execute("CREATE TEMPORARY TABLE chain_entry (seq bigint, entry_hash text)")
+        cursor.execute("INSERT INTO pg_temp.chain_entry VALUES (2, %s)", [forged_tip])
+    columns = (
+        "seq, kind, lab_id, study_id, lab_uid, study_code, author_id, created_at, payload, payload_hash, "
+        "prev_hash, entry_hash"
+    )
+    insert = (
+        f"INSERT INTO public.chain_entry ({columns}) "
+        "VALUES (3, 'PUBLICATION_LINKED', NULL, NULL, '', '', NULL, now(), '{}', %s, %s, %s)"
+    )
+    assert refused(insert, ("a" * 64, forged_tip, "f" * 64))

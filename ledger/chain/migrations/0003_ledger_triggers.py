@@ -5,7 +5,8 @@ from ledger.chain import triggers
 
 
 def install(apps, schema_editor):
-    for statement in triggers.install_statements(schema_editor.connection.vendor):
+    connection = schema_editor.connection
+    for statement in triggers.install_statements(connection.vendor, schema=triggers.ledger_schema(connection)):
         schema_editor.execute(statement, params=None)
     # The chain head starts empty; appends lock and advance it.
     ChainHead = apps.get_model("chain", "ChainHead")

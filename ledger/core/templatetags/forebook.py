@@ -70,6 +70,20 @@ def verdict_badge(verdict: str):
     )
 
 
+SEVERITY_SYMBOLS = {"major": "‼", "minor": "!", "note": "i"}
+SEVERITY_LABELS = {"major": "Major", "minor": "Minor", "note": "Note"}
+
+
+@register.simple_tag
+def severity_badge(severity: str):
+    return format_html(
+        '<span class="badge severity-{}"><span aria-hidden="true">{}</span> {}</span>',
+        severity,
+        SEVERITY_SYMBOLS.get(severity, "•"),
+        SEVERITY_LABELS.get(severity, severity),
+    )
+
+
 @register.filter
 def label(value, vocabulary: str):
     """The human label of a stored vocabulary value: {{ row.direction|label:"direction" }}."""

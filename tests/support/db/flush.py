@@ -13,11 +13,12 @@ from ledger.chain import triggers
 class TriggerLiftingFlushMixin:
     def execute_sql_flush(self, sql_list):
         vendor = self.connection.vendor
+        schema = triggers.ledger_schema(self.connection)
         with transaction.atomic(using=self.connection.alias, savepoint=self.connection.features.can_rollback_ddl):
             with self.connection.cursor() as cursor:
                 for statement in triggers.drop_statements(vendor):
                     cursor.execute(statement)
                 for sql in sql_list:
                     cursor.execute(sql)
-                for statement in triggers.install_statements(vendor):
+                for statement in triggers.install_statements(vendor, schema=schema):
                     cursor.execute(statement)
