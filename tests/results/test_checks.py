@@ -54,8 +54,16 @@ def test_a_decision_changing_p_must_be_confirmed_and_the_check_is_sealed(investi
     assert refusal.value.field == "confirm_checks"
     study.refresh_from_db()
     assert study.state == StudyState.COLLECTING
+    # The recomputed p is significant while the verdict says null: that finding needs its explanation too.
+    preview = services.result_preview(study=study, rows=[row], report=REPORT_AS_PLANNED)
+    explanations = {finding.identity: "Reported as printed by the analysis script." for finding in preview.unexplained({})}
     result = services.result_record(
-        member=investigator, study=study, rows=[row], report=REPORT_AS_PLANNED, confirm_checks=True
+        member=investigator,
+        study=study,
+        rows=[row],
+        report=REPORT_AS_PLANNED,
+        confirm_checks=True,
+        explanations=explanations,
     )
     payload = json.loads(result.entry.payload)
     (check,) = payload["checks"]
