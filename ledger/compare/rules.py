@@ -138,7 +138,12 @@ def _p_under_plan(*, statistic: Payload, n: int | None, sides: str, direction: s
     # the other one (its p is then above .5).
     return float(
         p_from_statistic(
-            kind=kind, value=value, df1=statistic.get("df1"), df2=statistic.get("df2"), n=n, sides=tails,
+            kind=kind,
+            value=value,
+            df1=statistic.get("df1"),
+            df2=statistic.get("df2"),
+            n=n,
+            sides=tails,
             tail=PREDICTED_TAIL.get(direction, "observed"),
         )
     )
@@ -162,7 +167,8 @@ def _row_decision(*, row: Payload, alpha: Any, sides: str, direction: str) -> Ro
         return RowDecision(alpha=alpha, sides=sides)
     if alpha is None:
         return RowDecision(
-            alpha=None, sides=sides,
+            alpha=None,
+            sides=sides,
             error="neither the plan nor the row gives an alpha level; give it in the result row",
         )
     try:
@@ -321,8 +327,10 @@ def _amendment_after_collection_start(comparison: Comparison) -> Iterator[Flag]:
                     f"data collection started on {started_on}."
                 ),
                 evidence={
-                    "version": amendment.version, "sealed_on": sealed_on,
-                    "collection_started_on": started_on, "days_after_start": days,
+                    "version": amendment.version,
+                    "sealed_on": sealed_on,
+                    "collection_started_on": started_on,
+                    "days_after_start": days,
                 },
             )
 
@@ -341,8 +349,10 @@ def _results_overdue(comparison: Comparison) -> Iterator[Flag]:
                 f"{completion.isoformat()} plus {context.overdue_grace_months} months)."
             ),
             evidence={
-                "completion": completion.isoformat(), "grace_months": context.overdue_grace_months,
-                "due_on": due_on.isoformat(), "days_overdue": (context.today - due_on).days,
+                "completion": completion.isoformat(),
+                "grace_months": context.overdue_grace_months,
+                "due_on": due_on.isoformat(),
+                "days_overdue": (context.today - due_on).days,
             },
         )
 
@@ -397,8 +407,12 @@ def _primary_outcome_dropped(comparison: Comparison) -> Iterator[Flag]:
         yield Flag(
             subject=outcome["key"],
             message=f"The registered primary outcome {_outcome_label(outcome)} {where}.",
-            evidence={"outcome": outcome["key"], "planned": PRIMARY, "reported": "secondary" if demoted_in else None,
-                      "rows": demoted_in},
+            evidence={
+                "outcome": outcome["key"],
+                "planned": PRIMARY,
+                "reported": "secondary" if demoted_in else None,
+                "rows": demoted_in,
+            },
         )
 
 
@@ -416,7 +430,9 @@ def _primary_outcome_added(comparison: Comparison) -> Iterator[Flag]:
             subject=view.key,
             message=f"{view.key} reports {_row_outcome_label(view)} as primary; {registered}.",
             evidence=_row_evidence(
-                view, planned=view.outcome.get("role") if view.outcome else None, reported=PRIMARY,
+                view,
+                planned=view.outcome.get("role") if view.outcome else None,
+                reported=PRIMARY,
                 outcome_name=view.row.get("outcome_name") or "",
             ),
         )
@@ -585,8 +601,13 @@ def _observed_sign(row: Payload) -> tuple[int, str] | None:
 def _decision_evidence(view: RowView) -> dict[str, Any]:
     decision = view.decision
     return _row_evidence(
-        view, verdict=view.row.get("verdict"), alpha=decision.alpha, sides=decision.sides,
-        recomputed_p=decision.p, p_reported=view.row.get("p_reported") or "", basis=decision.basis,
+        view,
+        verdict=view.row.get("verdict"),
+        alpha=decision.alpha,
+        sides=decision.sides,
+        recomputed_p=decision.p,
+        p_reported=view.row.get("p_reported") or "",
+        basis=decision.basis,
     )
 
 
@@ -670,9 +691,13 @@ def _consistency_rule(verdict: str) -> Check:
                     subject=view.key,
                     message=f"{view.key}: {outcome['explanation']}",
                     evidence=_row_evidence(
-                        view, reported=view.row.get("p_reported"), alpha=view.row.get("alpha"),
-                        sides=view.row.get("sides"), recomputed_p=outcome["recomputed_p"],
-                        recomputed_range=outcome["recomputed_range"], reported_interval=outcome["reported_interval"],
+                        view,
+                        reported=view.row.get("p_reported"),
+                        alpha=view.row.get("alpha"),
+                        sides=view.row.get("sides"),
+                        recomputed_p=outcome["recomputed_p"],
+                        recomputed_range=outcome["recomputed_range"],
+                        reported_interval=outcome["reported_interval"],
                     ),
                     on_primary=view.on_primary,
                 )
@@ -701,120 +726,237 @@ def _numbers_uncheckable(comparison: Comparison) -> Iterator[Flag]:
 
 RULES: tuple[Rule, ...] = (
     # Data seen before the plan was fixed: the registration cannot show the plan was made blind.
-    Rule(code="RETROSPECTIVE_REGISTRATION", title="Registered after data collection began",
-         description="The plan was first sealed after the recorded start of data collection.",
-         severity=Severity.MAJOR, needs_result=False, check=_retrospective_registration),
+    Rule(
+        code="RETROSPECTIVE_REGISTRATION",
+        title="Registered after data collection began",
+        description="The plan was first sealed after the recorded start of data collection.",
+        severity=Severity.MAJOR,
+        needs_result=False,
+        check=_retrospective_registration,
+    ),
     # The services refuse this; an entry that still shows it (a back-dated collection start, a
     # direct write) changed the plan when data could already be seen.
-    Rule(code="AMENDMENT_AFTER_COLLECTION_START", title="Amended after data collection began",
-         description="An amendment was sealed after the recorded start of data collection.",
-         severity=Severity.MAJOR, needs_result=False, check=_amendment_after_collection_start),
+    Rule(
+        code="AMENDMENT_AFTER_COLLECTION_START",
+        title="Amended after data collection began",
+        description="An amendment was sealed after the recorded start of data collection.",
+        severity=Severity.MAJOR,
+        needs_result=False,
+        check=_amendment_after_collection_start,
+    ),
     # The file drawer Forebook exists to empty: a missing result hides its outcome from the count.
-    Rule(code="RESULTS_OVERDUE", title="Results overdue",
-         description="No result was recorded by the expected completion date plus the lab's grace period.",
-         severity=Severity.MAJOR, needs_result=False, check=_results_overdue),
-    Rule(code="PRIMARY_OUTCOME_DROPPED", title="Registered primary outcome not reported as primary",
-         description="A registered primary outcome has no result, or is reported only as secondary.",
-         severity=Severity.MAJOR, check=_primary_outcome_dropped),
-    Rule(code="PRIMARY_OUTCOME_ADDED", title="Primary outcome not registered as primary",
-         description="A result is reported as primary on an outcome registered as secondary or not registered.",
-         severity=Severity.MAJOR, check=_primary_outcome_added),
+    Rule(
+        code="RESULTS_OVERDUE",
+        title="Results overdue",
+        description="No result was recorded by the expected completion date plus the lab's grace period.",
+        severity=Severity.MAJOR,
+        needs_result=False,
+        check=_results_overdue,
+    ),
+    Rule(
+        code="PRIMARY_OUTCOME_DROPPED",
+        title="Registered primary outcome not reported as primary",
+        description="A registered primary outcome has no result, or is reported only as secondary.",
+        severity=Severity.MAJOR,
+        check=_primary_outcome_dropped,
+    ),
+    Rule(
+        code="PRIMARY_OUTCOME_ADDED",
+        title="Primary outcome not registered as primary",
+        description="A result is reported as primary on an outcome registered as secondary or not registered.",
+        severity=Severity.MAJOR,
+        check=_primary_outcome_added,
+    ),
     # Leaving out a registered secondary outcome is selective reporting, but the study's claim
     # rests on its primary outcomes.
-    Rule(code="SECONDARY_OUTCOME_DROPPED", title="Registered secondary outcome not reported",
-         description="A registered secondary outcome has no result.",
-         severity=Severity.MINOR, check=_secondary_outcome_dropped),
+    Rule(
+        code="SECONDARY_OUTCOME_DROPPED",
+        title="Registered secondary outcome not reported",
+        description="A registered secondary outcome has no result.",
+        severity=Severity.MINOR,
+        check=_secondary_outcome_dropped,
+    ),
     # The form labels such a row as unregistered, so it adds information without hiding any;
     # readers should still know it was not planned.
-    Rule(code="SECONDARY_OUTCOME_ADDED", title="Unregistered outcome reported",
-         description="A result is reported as secondary on an outcome the plan did not register.",
-         severity=Severity.NOTE, check=_secondary_outcome_added),
-    Rule(code="HYPOTHESIS_UNREPORTED", title="Registered hypothesis not reported",
-         description="A registered hypothesis has no result row.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR, check=_hypothesis_unreported),
-    Rule(code="HYPOTHESIS_OUTCOME_CHANGED", title="Hypothesis tested on another outcome",
-         description="A hypothesis is reported on a different outcome from the one it was registered on.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR, check=_hypothesis_outcome_changed),
-    Rule(code="DIRECTION_CHANGED", title="Direction of the hypothesis changed",
-         description="The direction tested differs from the registered direction of the hypothesis.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR,
-         check=_analysis_rule(name="direction", describe=lambda value: f"the direction {value!r}", differs=_differs)),
+    Rule(
+        code="SECONDARY_OUTCOME_ADDED",
+        title="Unregistered outcome reported",
+        description="A result is reported as secondary on an outcome the plan did not register.",
+        severity=Severity.NOTE,
+        check=_secondary_outcome_added,
+    ),
+    Rule(
+        code="HYPOTHESIS_UNREPORTED",
+        title="Registered hypothesis not reported",
+        description="A registered hypothesis has no result row.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_hypothesis_unreported,
+    ),
+    Rule(
+        code="HYPOTHESIS_OUTCOME_CHANGED",
+        title="Hypothesis tested on another outcome",
+        description="A hypothesis is reported on a different outcome from the one it was registered on.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_hypothesis_outcome_changed,
+    ),
+    Rule(
+        code="DIRECTION_CHANGED",
+        title="Direction of the hypothesis changed",
+        description="The direction tested differs from the registered direction of the hypothesis.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_analysis_rule(name="direction", describe=lambda value: f"the direction {value!r}", differs=_differs),
+    ),
     # Switching tests is often forced by the data (assumptions not met) and favours no result by
     # itself; readers should still see it.
-    Rule(code="TEST_CHANGED", title="Statistical test changed",
-         description="The test used differs from the registered test of the hypothesis.",
-         severity=Severity.MINOR,
-         check=_analysis_rule(name="test_family", describe=lambda value: f"the test {value!r}", differs=_differs)),
-    Rule(code="ALPHA_RAISED", title="Alpha raised",
-         description="The alpha used is higher (more lenient) than the registered alpha.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR,
-         check=_analysis_rule(name="alpha", describe=_alpha_shown, differs=_alpha_raised)),
-    Rule(code="ALPHA_LOWERED", title="Alpha lowered",
-         description="The alpha used is lower (stricter) than the registered alpha.",
-         severity=Severity.NOTE, check=_analysis_rule(name="alpha", describe=_alpha_shown, differs=_alpha_lowered)),
+    Rule(
+        code="TEST_CHANGED",
+        title="Statistical test changed",
+        description="The test used differs from the registered test of the hypothesis.",
+        severity=Severity.MINOR,
+        check=_analysis_rule(name="test_family", describe=lambda value: f"the test {value!r}", differs=_differs),
+    ),
+    Rule(
+        code="ALPHA_RAISED",
+        title="Alpha raised",
+        description="The alpha used is higher (more lenient) than the registered alpha.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_analysis_rule(name="alpha", describe=_alpha_shown, differs=_alpha_raised),
+    ),
+    Rule(
+        code="ALPHA_LOWERED",
+        title="Alpha lowered",
+        description="The alpha used is lower (stricter) than the registered alpha.",
+        severity=Severity.NOTE,
+        check=_analysis_rule(name="alpha", describe=_alpha_shown, differs=_alpha_lowered),
+    ),
     # A one-sided p is half the two-sided one: the switch alone can cross alpha.
-    Rule(code="ONE_SIDED_NOT_REGISTERED", title="One-sided test where two-sided was registered",
-         description="A one-sided test is reported where a two-sided test was registered.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR,
-         check=_analysis_rule(name="sides", describe=_sides_shown,
-                              differs=lambda planned, reported: planned == TWO_SIDED and reported == ONE_SIDED)),
-    Rule(code="TWO_SIDED_NOT_REGISTERED", title="Two-sided test where one-sided was registered",
-         description="A two-sided test is reported where a one-sided test was registered (stricter).",
-         severity=Severity.NOTE,
-         check=_analysis_rule(name="sides", describe=_sides_shown,
-                              differs=lambda planned, reported: planned == ONE_SIDED and reported == TWO_SIDED)),
-    Rule(code="CORRECTION_NOT_APPLIED", title="Multiplicity correction not applied",
-         description="A multiplicity correction was registered for the hypothesis but none was applied.",
-         severity=Severity.MAJOR, secondary_severity=Severity.MINOR,
-         check=_analysis_rule(name="multiplicity", describe=_correction_shown, differs=_correction_dropped)),
+    Rule(
+        code="ONE_SIDED_NOT_REGISTERED",
+        title="One-sided test where two-sided was registered",
+        description="A one-sided test is reported where a two-sided test was registered.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_analysis_rule(
+            name="sides",
+            describe=_sides_shown,
+            differs=lambda planned, reported: planned == TWO_SIDED and reported == ONE_SIDED,
+        ),
+    ),
+    Rule(
+        code="TWO_SIDED_NOT_REGISTERED",
+        title="Two-sided test where one-sided was registered",
+        description="A two-sided test is reported where a one-sided test was registered (stricter).",
+        severity=Severity.NOTE,
+        check=_analysis_rule(
+            name="sides",
+            describe=_sides_shown,
+            differs=lambda planned, reported: planned == ONE_SIDED and reported == TWO_SIDED,
+        ),
+    ),
+    Rule(
+        code="CORRECTION_NOT_APPLIED",
+        title="Multiplicity correction not applied",
+        description="A multiplicity correction was registered for the hypothesis but none was applied.",
+        severity=Severity.MAJOR,
+        secondary_severity=Severity.MINOR,
+        check=_analysis_rule(name="multiplicity", describe=_correction_shown, differs=_correction_dropped),
+    ),
     # Holm, Bonferroni and Benjamini-Hochberg control different error rates; a swap changes
     # what the result claims without removing the control altogether.
-    Rule(code="CORRECTION_CHANGED", title="Multiplicity correction changed",
-         description="The multiplicity correction applied differs from the registered one.",
-         severity=Severity.MINOR,
-         check=_analysis_rule(name="multiplicity", describe=_correction_shown, differs=_correction_changed)),
+    Rule(
+        code="CORRECTION_CHANGED",
+        title="Multiplicity correction changed",
+        description="The multiplicity correction applied differs from the registered one.",
+        severity=Severity.MINOR,
+        check=_analysis_rule(name="multiplicity", describe=_correction_shown, differs=_correction_changed),
+    ),
     # Attrition and over-recruitment are common and not a claim by themselves; the stopping rule
     # below covers data-dependent stopping.
-    Rule(code="SAMPLE_SIZE_DIFFERS", title="N analysed differs from the planned N",
-         description="N analysed for a primary result differs from the planned N by more than the lab's tolerance.",
-         severity=Severity.MINOR, check=_sample_size_differs),
+    Rule(
+        code="SAMPLE_SIZE_DIFFERS",
+        title="N analysed differs from the planned N",
+        description="N analysed for a primary result differs from the planned N by more than the lab's tolerance.",
+        severity=Severity.MINOR,
+        check=_sample_size_differs,
+    ),
     # Stopping when the data look good inflates the false-positive rate well beyond alpha
     # (Armitage, McPherson & Rowe 1969, J R Stat Soc A 132: 235).
-    Rule(code="STOPPING_RULE_NOT_FOLLOWED", title="Stopping rule not followed",
-         description="Data collection did not stop as the registered stopping rule said.",
-         severity=Severity.MAJOR, check=_stopping_rule_not_followed),
+    Rule(
+        code="STOPPING_RULE_NOT_FOLLOWED",
+        title="Stopping rule not followed",
+        description="Data collection did not stop as the registered stopping rule said.",
+        severity=Severity.MAJOR,
+        check=_stopping_rule_not_followed,
+    ),
     # Flexible exclusions alone can make a false positive likely (Simmons, Nelson & Simonsohn
     # 2011, Psychol Sci 22: 1359), so a change needs its reason on record.
-    Rule(code="EXCLUSIONS_CHANGED", title="Exclusion rules changed",
-         description="The exclusion rules applied differ from the registered ones.",
-         severity=Severity.MAJOR, check=_exclusions_changed),
+    Rule(
+        code="EXCLUSIONS_CHANGED",
+        title="Exclusion rules changed",
+        description="The exclusion rules applied differ from the registered ones.",
+        severity=Severity.MAJOR,
+        check=_exclusions_changed,
+    ),
     # A claim of support the numbers contradict misreports the study, whatever the outcome's role.
-    Rule(code="SUPPORTED_WITHOUT_SIGNIFICANCE", title="Supported, but p is not below alpha",
-         description="A result reported as supported has a p (recomputed, else as reported) at or above the alpha.",
-         severity=Severity.MAJOR, check=_supported_without_significance),
-    Rule(code="SUPPORTED_AGAINST_DIRECTION", title="Supported, but the effect went the other way",
-         description="A result reported as supported shows an effect opposite to the registered direction.",
-         severity=Severity.MAJOR, check=_supported_against_direction),
+    Rule(
+        code="SUPPORTED_WITHOUT_SIGNIFICANCE",
+        title="Supported, but p is not below alpha",
+        description="A result reported as supported has a p (recomputed, else as reported) at or above the alpha.",
+        severity=Severity.MAJOR,
+        check=_supported_without_significance,
+    ),
+    Rule(
+        code="SUPPORTED_AGAINST_DIRECTION",
+        title="Supported, but the effect went the other way",
+        description="A result reported as supported shows an effect opposite to the registered direction.",
+        severity=Severity.MAJOR,
+        check=_supported_against_direction,
+    ),
     # A significant result may still be judged unsupported (a trivial effect, a failed
     # manipulation check), so this is no deviation, but the judgement needs its reason.
-    Rule(code="NULL_DESPITE_SIGNIFICANCE", title="Not supported, although p is below alpha",
-         description="A result reported as not supported has a p-value below the registered alpha.",
-         severity=Severity.MINOR, asks_for_explanation=True, check=_null_despite_significance),
-    Rule(code="SUPPORTED_WITHOUT_NUMBERS", title="Supported without numbers",
-         description="A result reported as supported gives neither a test statistic nor a p-value.",
-         severity=Severity.MINOR, check=_supported_without_numbers),
+    Rule(
+        code="NULL_DESPITE_SIGNIFICANCE",
+        title="Not supported, although p is below alpha",
+        description="A result reported as not supported has a p-value below the registered alpha.",
+        severity=Severity.MINOR,
+        asks_for_explanation=True,
+        check=_null_despite_significance,
+    ),
+    Rule(
+        code="SUPPORTED_WITHOUT_NUMBERS",
+        title="Supported without numbers",
+        description="A result reported as supported gives neither a test statistic nor a p-value.",
+        severity=Severity.MINOR,
+        check=_supported_without_numbers,
+    ),
     # The reported p is on the other side of alpha from its own statistic: one of the two is
     # wrong, and the significance decision with it.
-    Rule(code="P_VALUE_CONTRADICTS_DECISION", title="Reported p on the wrong side of alpha",
-         description="The reported p-value and the p recomputed from the statistic fall on opposite sides of alpha.",
-         severity=Severity.MAJOR, check=_consistency_rule("decision_changing")),
+    Rule(
+        code="P_VALUE_CONTRADICTS_DECISION",
+        title="Reported p on the wrong side of alpha",
+        description="The reported p-value and the p recomputed from the statistic fall on opposite sides of alpha.",
+        severity=Severity.MAJOR,
+        check=_consistency_rule("decision_changing"),
+    ),
     # A mismatch that leaves the decision unchanged is usually a typo or a rounding slip.
-    Rule(code="P_VALUE_MISMATCH", title="Reported p does not match the statistic",
-         description="The reported p-value does not match the p recomputed from the statistic (same decision).",
-         severity=Severity.MINOR, check=_consistency_rule("inconsistent")),
-    Rule(code="NUMBERS_UNCHECKABLE", title="Numbers could not be checked",
-         description="A statistic or reported p-value could not be recomputed or read, so no check ran on it.",
-         severity=Severity.NOTE, check=_numbers_uncheckable),
+    Rule(
+        code="P_VALUE_MISMATCH",
+        title="Reported p does not match the statistic",
+        description="The reported p-value does not match the p recomputed from the statistic (same decision).",
+        severity=Severity.MINOR,
+        check=_consistency_rule("inconsistent"),
+    ),
+    Rule(
+        code="NUMBERS_UNCHECKABLE",
+        title="Numbers could not be checked",
+        description="A statistic or reported p-value could not be recomputed or read, so no check ran on it.",
+        severity=Severity.NOTE,
+        check=_numbers_uncheckable,
+    ),
 )
 RULES_BY_CODE: dict[str, Rule] = {rule.code: rule for rule in RULES}
 

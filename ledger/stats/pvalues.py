@@ -356,11 +356,10 @@ def p_consistency(
     alpha = _inputs.open_unit(alpha, field="alpha")
     statistic, decimals = _statistic_and_decimals(value, decimals)
     reported = parse_reported_p(text=p_reported, alpha=alpha)
+
     def p_of(statistic_value: float) -> float:
         return float(
-            p_from_statistic(
-                kind=statistic_kind, value=statistic_value, df1=df1, df2=df2, n=n, sides=sides, tail=tail
-            )
+            p_from_statistic(kind=statistic_kind, value=statistic_value, df1=df1, df2=df2, n=n, sides=sides, tail=tail)
         )
 
     recomputed = p_of(statistic)  # validates the statistic, its df, the sides and the tail

@@ -27,9 +27,16 @@ TODAY = dt.date(2030, 11, 2)
 
 def _hypothesis(key: str, outcome: str, **overrides: Any) -> dict[str, Any]:
     hypothesis = {
-        "key": key, "statement": f"{key}: the hum raises the outcome.", "direction": "increase", "outcome": outcome,
-        "test_family": "t_independent", "test_description": "", "alpha": 0.05, "sides": "two",
-        "multiplicity": "none", "covariates": "",
+        "key": key,
+        "statement": f"{key}: the hum raises the outcome.",
+        "direction": "increase",
+        "outcome": outcome,
+        "test_family": "t_independent",
+        "test_description": "",
+        "alpha": 0.05,
+        "sides": "two",
+        "multiplicity": "none",
+        "covariates": "",
     }
     hypothesis.update(overrides)
     return hypothesis
@@ -45,15 +52,34 @@ def plan_payload(*, h1: dict | None = None, h2: dict | None = None, **overrides:
         "research_question": "Does a low hum bias estimates of line length?",
         "hypotheses": [_hypothesis("H1", "O1", **(h1 or {})), _hypothesis("H2", "O2", **(h2 or {}))],
         "outcomes": [
-            {"key": "O1", "name": "Estimation error", "role": "primary", "measure": "Percent error", "unit": "%",
-             "timepoint": "Session end"},
-            {"key": "O2", "name": "Confidence", "role": "secondary", "measure": "1-7 rating", "unit": "",
-             "timepoint": "Session end"},
+            {
+                "key": "O1",
+                "name": "Estimation error",
+                "role": "primary",
+                "measure": "Percent error",
+                "unit": "%",
+                "timepoint": "Session end",
+            },
+            {
+                "key": "O2",
+                "name": "Confidence",
+                "role": "secondary",
+                "measure": "1-7 rating",
+                "unit": "",
+                "timepoint": "Session end",
+            },
         ],
         "design": {"arms": "Hum vs silence", "allocation": "randomised", "blinding": "assessors"},
         "sample_size": {
-            "planned_n": PLANNED_N, "stopping_rule": "Stop at N = 128.", "power_design": "t_independent",
-            "effect_size": 0.5, "alpha": 0.05, "target_power": 0.8, "sides": "two", "groups": None, "chi_df": None,
+            "planned_n": PLANNED_N,
+            "stopping_rule": "Stop at N = 128.",
+            "power_design": "t_independent",
+            "effect_size": 0.5,
+            "alpha": 0.05,
+            "target_power": 0.8,
+            "sides": "two",
+            "groups": None,
+            "chi_df": None,
             "justification": "Pilot estimate.",
         },
         "exclusion_rules": "Exclude sessions with more than 20% missing trials.",
@@ -80,13 +106,23 @@ def row_payload(key: str = "R1", **overrides: Any) -> dict[str, Any]:
     """
     t_value, df = overrides.pop("t", 0.84), overrides.pop("df", PLANNED_N - 2.0)
     row = {
-        "key": key, "hypothesis": "H1", "outcome": "O1", "outcome_name": "Estimation error",
-        "reported_as": "primary", "direction": "increase", "test_family": "t_independent", "test_description": "",
-        "sides": "two", "alpha": 0.05, "multiplicity": "none",
+        "key": key,
+        "hypothesis": "H1",
+        "outcome": "O1",
+        "outcome_name": "Estimation error",
+        "reported_as": "primary",
+        "direction": "increase",
+        "test_family": "t_independent",
+        "test_description": "",
+        "sides": "two",
+        "alpha": 0.05,
+        "multiplicity": "none",
         "statistic": {"kind": "t", "value": t_value, "df1": df, "df2": None, "decimals": 2},
         "p_reported": f"{two_sided_t_p(t_value, df):.3f}",
         "effect": {"kind": "d", "value": round(2 * t_value / df**0.5, 2), "ci_low": None, "ci_high": None},
-        "n_analysed": PLANNED_N, "verdict": "null", "comment": "",
+        "n_analysed": PLANNED_N,
+        "verdict": "null",
+        "comment": "",
     }
     row.update(overrides)
     return row

@@ -197,8 +197,15 @@ def faithful_hypothesis(draw, *, key: str, outcome: str, planned_n: int):
         verdict = "supported"
     family = {"t": "t_independent", "z": "other", "F": "anova_oneway", "chi2": "chi_square", "r": "correlation"}[kind]
     hypothesis = {
-        "key": key, "statement": f"{key} holds.", "direction": direction, "outcome": outcome, "test_family": family,
-        "test_description": "", "alpha": alpha, "sides": sides, "multiplicity": draw(st.sampled_from(("none", "holm"))),
+        "key": key,
+        "statement": f"{key} holds.",
+        "direction": direction,
+        "outcome": outcome,
+        "test_family": family,
+        "test_description": "",
+        "alpha": alpha,
+        "sides": sides,
+        "multiplicity": draw(st.sampled_from(("none", "holm"))),
         "covariates": "",
     }
     effect = {"kind": "d", "value": value, "ci_low": None, "ci_high": None} if kind in ("t", "z") else None
@@ -261,4 +268,3 @@ def test_the_property_strategy_covers_every_statistic_and_verdict():
     collect()
     assert seen_kinds == set(STATISTIC_KINDS)
     assert seen_verdicts == {"supported", "null", "opposite"}
-

@@ -34,16 +34,16 @@ def test_plan_builder_has_the_sealed_plan_shape():
 
 
 def test_row_builder_has_the_sealed_row_shape():
-    real = sealed_row_payload(
-        {**result_row(), "statistic_decimals": 2}, plan=_real_plan(), key="R1"
-    )
+    real = sealed_row_payload({**result_row(), "statistic_decimals": 2}, plan=_real_plan(), key="R1")
     assert _key_shape(row_payload()) == _key_shape(real)
 
 
 def test_result_builder_has_the_sealed_result_shape():
     plan = _real_plan()
     real = sealed_result_payload(
-        study_code="Q3T8ZK", plan_version=1, plan_entry="ab" * 32,
+        study_code="Q3T8ZK",
+        plan_version=1,
+        plan_entry="ab" * 32,
         rows=[sealed_row_payload({**result_row(), "statistic_decimals": 2}, plan=plan, key="R1")],
         report=REPORT_AS_PLANNED,
     )

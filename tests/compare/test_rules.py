@@ -231,7 +231,9 @@ def test_direction_changed_stays_silent():
 def test_test_changed_fires():
     finding = single(findings_of(r1=row_payload(test_family="nonparametric")), "TEST_CHANGED")
     assert (finding.severity, finding.evidence["planned"], finding.evidence["reported"]) == (
-        Severity.MINOR, "t_independent", "nonparametric",
+        Severity.MINOR,
+        "t_independent",
+        "nonparametric",
     )
 
 
@@ -283,7 +285,9 @@ def test_two_sided_not_registered_stays_silent():
 def test_correction_not_applied_fires():
     finding = single(findings_of(plan=plan_payload(h1={"multiplicity": "holm"})), "CORRECTION_NOT_APPLIED")
     assert (finding.severity, finding.evidence["planned"], finding.evidence["reported"]) == (
-        Severity.MAJOR, "holm", "none",
+        Severity.MAJOR,
+        "holm",
+        "none",
     )
     assert only(findings_of(plan=plan_payload(h1={"multiplicity": "holm"})), "CORRECTION_CHANGED") == []
 
@@ -365,7 +369,9 @@ def test_supported_against_direction_fires():
     row = row_payload(t=-2.50, verdict="supported")
     finding = single(findings_of(r1=row), "SUPPORTED_AGAINST_DIRECTION")
     assert (finding.severity, finding.evidence["planned"], finding.evidence["reported"]) == (
-        Severity.MAJOR, "increase", "decrease",
+        Severity.MAJOR,
+        "increase",
+        "decrease",
     )
     # An odds ratio below 1 is a decrease; the effect's sign is read before the statistic's.
     odds = row_payload(t=2.50, verdict="supported", effect={"kind": "or", "value": 0.6, "ci_low": 0.4, "ci_high": 0.9})
@@ -390,7 +396,10 @@ def test_null_despite_significance_fires():
     plan = plan_payload(h1={"sides": "one", "test_family": "anova_oneway"})
     anova = row_payload(
         statistic={"kind": "F", "value": 4.10, "df1": 2.0, "df2": 125.0, "decimals": 2},
-        p_reported=f"{stats.f.sf(4.10, 2, 125):.3f}", sides="one", test_family="anova_oneway", effect=None,
+        p_reported=f"{stats.f.sf(4.10, 2, 125):.3f}",
+        sides="one",
+        test_family="anova_oneway",
+        effect=None,
     )
     finding = single(findings_of(plan=plan, r1=anova), "NULL_DESPITE_SIGNIFICANCE")
     assert finding.evidence["recomputed_p"] == pytest.approx(stats.f.sf(4.10, 2, 125), rel=1e-9)

@@ -1,4 +1,5 @@
 """The plan's power justification is recomputed, sealed with its inputs, and false claims need confirming."""
+
 import json
 
 import pytest
@@ -26,8 +27,17 @@ def plan_with(**sample_size):
 
 
 def test_power_at_the_planned_total_n_splits_two_groups_evenly():
-    figures = power_figures({"design": "t_independent", "effect": 0.5, "alpha": 0.05, "sides": "two",
-                             "n_total": 128, "groups": None, "df": None})
+    figures = power_figures(
+        {
+            "design": "t_independent",
+            "effect": 0.5,
+            "alpha": 0.05,
+            "sides": "two",
+            "n_total": 128,
+            "groups": None,
+            "df": None,
+        }
+    )
     assert figures["power_at_n"] == pytest.approx(noncentral_t_power(64, 0.5), rel=1e-9)
     # Cohen (1988), table 2.4.1: d = .5, alpha .05 two-sided, power .80 -> 64 per group (128 in all).
     assert figures["n_for_80"] == 128
@@ -80,10 +90,20 @@ def test_power_preview_endpoint_answers_in_words(client, investigator):
     study = enrolled_study(member=investigator)
     client.force_login(investigator.user)
     url = f"/labs/{investigator.lab.slug}/studies/{study.code}/plan/power/"
-    answer = client.get(url, {"plan-planned_n": "64", "plan-power_design": "t_independent",
-                              "plan-effect_size": "0.5", "plan-ss_alpha": "0.05", "plan-target_power": "0.8",
-                              "plan-ss_sides": "two"}).json()
+    answer = client.get(
+        url,
+        {
+            "plan-planned_n": "64",
+            "plan-power_design": "t_independent",
+            "plan-effect_size": "0.5",
+            "plan-ss_alpha": "0.05",
+            "plan-target_power": "0.8",
+            "plan-ss_sides": "two",
+        },
+    ).json()
     assert answer["problem"] is True
     assert "N = 128" in answer["message"]
-    bad = client.get(url, {"plan-planned_n": "-4", "plan-power_design": "t_independent", "plan-effect_size": "inf"}).json()
+    bad = client.get(
+        url, {"plan-planned_n": "-4", "plan-power_design": "t_independent", "plan-effect_size": "inf"}
+    ).json()
     assert bad["problem"] is True and "finite" in bad["message"]

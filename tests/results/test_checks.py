@@ -1,4 +1,5 @@
 """Reported p-values are recomputed from their statistics; disagreements must be confirmed and are sealed."""
+
 import json
 
 import pytest
@@ -12,8 +13,14 @@ from tests.factories import REPORT_AS_PLANNED, collecting_study, result_row
 
 
 def sealed_shape(kind="t", value=2.20, df1=10, p="0.03", decimals=2, n=12):
-    return {"key": "R1", "statistic": {"kind": kind, "value": value, "df1": df1, "df2": None, "decimals": decimals},
-            "p_reported": p, "n_analysed": n, "sides": "two", "alpha": 0.05}
+    return {
+        "key": "R1",
+        "statistic": {"kind": kind, "value": value, "df1": df1, "df2": None, "decimals": decimals},
+        "p_reported": p,
+        "n_analysed": n,
+        "sides": "two",
+        "alpha": 0.05,
+    }
 
 
 def test_decimals_are_read_as_typed():
@@ -56,7 +63,9 @@ def test_a_decision_changing_p_must_be_confirmed_and_the_check_is_sealed(investi
     assert study.state == StudyState.COLLECTING
     # The recomputed p is significant while the verdict says null: that finding needs its explanation too.
     preview = services.result_preview(study=study, rows=[row], report=REPORT_AS_PLANNED)
-    explanations = {finding.identity: "Reported as printed by the analysis script." for finding in preview.unexplained({})}
+    explanations = {
+        finding.identity: "Reported as printed by the analysis script." for finding in preview.unexplained({})
+    }
     result = services.result_record(
         member=investigator,
         study=study,

@@ -1,4 +1,5 @@
 """Results are held against the sealed plan when they are sealed; major deviations need explanations."""
+
 import datetime as dt
 import json
 
@@ -76,9 +77,13 @@ def test_the_result_form_shows_findings_before_sealing(client, investigator):
     client.force_login(investigator.user)
     url = f"/labs/{investigator.lab.slug}/studies/{study.code}/results/"
     form = {
-        "rows-TOTAL_FORMS": "1", "rows-INITIAL_FORMS": "0", "rows-MIN_NUM_FORMS": "0", "rows-MAX_NUM_FORMS": "100",
+        "rows-TOTAL_FORMS": "1",
+        "rows-INITIAL_FORMS": "0",
+        "rows-MIN_NUM_FORMS": "0",
+        "rows-MAX_NUM_FORMS": "100",
         **{f"rows-0-{name}": "" if value is None else str(value) for name, value in SWITCHED.items()},
-        "report-stopping_rule_followed": "yes", "report-exclusions_as_planned": "yes",
+        "report-stopping_rule_followed": "yes",
+        "report-exclusions_as_planned": "yes",
         "preview": "1",
     }
     page = client.post(url, form)

@@ -1,4 +1,5 @@
 """One-sided p-values in the predicted direction (the tail the plan named, not the one observed)."""
+
 import numpy as np
 import pytest
 from scipy import stats as sps
@@ -37,9 +38,7 @@ def test_correlation_tail_matches_scipy_pearsonr_alternative():
 
 def test_a_correct_large_one_sided_p_is_consistent():
     # t(10) = -2.00 tested one-sided for an increase: p = t.sf(-2, 10) = 0.963 (scipy).
-    check = p_consistency(
-        statistic_kind="t", value="-2.00", df1=10, sides="one", tail="upper", p_reported="0.96"
-    )
+    check = p_consistency(statistic_kind="t", value="-2.00", df1=10, sides="one", tail="upper", p_reported="0.96")
     assert check.verdict == "consistent"
     assert check.recomputed_p == pytest.approx(sps.t.sf(-2.0, 10), rel=1e-12)
     assert "upper-tail" in check.explanation
