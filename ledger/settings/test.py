@@ -5,8 +5,12 @@ transactional tests can lift the ledger triggers for that one flush. Production 
 any engine but Django's own PostgreSQL backend, and a test proves it.
 """
 
+import os
+import tempfile
+from pathlib import Path
+
 from ledger.settings.base import *  # noqa: F403
-from ledger.settings.base import BASE_DIR, DATABASES
+from ledger.settings.base import DATABASES
 
 TEST_ENGINES = {
     "django.db.backends.postgresql": "tests.support.db.postgresql",
@@ -14,8 +18,9 @@ TEST_ENGINES = {
 }
 DATABASES["default"]["ENGINE"] = TEST_ENGINES[DATABASES["default"]["ENGINE"]]
 if DATABASES["default"]["ENGINE"].endswith("sqlite3"):
-    # An on-disk test database, so that several threads (and a live server) share one database.
-    DATABASES["default"]["TEST"] = {"NAME": str(BASE_DIR / "tests" / ".test-db.sqlite3")}
+    # An on-disk test database, so that several threads (and a live server) share one database;
+    # one per test process, so that two test runs on one machine never share a file.
+    DATABASES["default"]["TEST"] = {"NAME": str(Path(tempfile.gettempdir()) / f"forebook-test-{os.getpid()}.sqlite3")}
 
 PASSWORD_HASHERS = ["django.contrib.auth.hashers.MD5PasswordHasher"]
 EMAIL_BACKEND = "django.core.mail.backends.locmem.EmailBackend"

@@ -62,3 +62,25 @@ def test_stored_entries_refuse_save_and_delete(lab):
         Entry.objects.all().delete()
     with pytest.raises(LedgerImmutableError):
         MerkleNode.objects.all().delete()
+
+
+def test_a_bulk_append_is_the_same_chain_as_single_appends(lab):
+    from ledger.chain.services import NewEntry, entries_append
+
+    single = append(3, lab=lab)
+    bulk = entries_append(
+        [NewEntry(kind=EntryKind.PUBLICATION_LINKED, payload={"bulk": i}, lab=lab) for i in range(2500)]
+    )
+    assert [e.seq for e in bulk] == list(range(4, 2504))
+    assert bulk[0].prev_hash == single[-1].entry_hash
+    report = verify_ledger()
+    assert report.ok, report.problem
+    assert report.count == 2503
+    assert ChainHead.objects.get().head_hash == bulk[-1].entry_hash
+
+
+def test_an_empty_bulk_append_writes_nothing(lab):
+    from ledger.chain.services import entries_append
+
+    assert entries_append([]) == []
+    assert not Entry.objects.exists()
