@@ -17,6 +17,10 @@ class ResultReport(models.Model):
     # The verdict on the first primary result: the study-level outcome the lab report counts.
     primary_verdict = models.CharField(max_length=16, choices=Verdict.choices)
     n_analysed = models.PositiveIntegerField(null=True, blank=True)
+    # Projections of the findings sealed in the payload, so reports count them without parsing
+    # every payload: how many are major, and the identities of those that need an explanation.
+    major_findings = models.PositiveIntegerField(default=0)
+    findings_requiring_explanation = models.JSONField(default=list, blank=True)
 
     def __str__(self) -> str:
         return f"results of {self.study.code}"

@@ -9,7 +9,7 @@ from django.db import transaction
 
 from ledger.chain.models import Entry, EntryKind
 from ledger.chain.services import entry_append
-from ledger.compare import Finding, findings_needing_explanation
+from ledger.compare import Finding, Severity, findings_needing_explanation
 from ledger.core.errors import ActionRefused
 from ledger.labs.models import Membership
 from ledger.labs.services import require
@@ -128,6 +128,10 @@ def result_record(
         recorded_at=entry.created_at,
         primary_verdict=primary["verdict"],
         n_analysed=primary.get("n_analysed"),
+        major_findings=sum(1 for finding in preview.findings if finding.severity is Severity.MAJOR),
+        findings_requiring_explanation=[
+            finding.identity for finding in findings_needing_explanation(findings=preview.findings)
+        ],
     )
     study.state = StudyState.REPORTED
     study.reported_at = entry.created_at
