@@ -4,11 +4,13 @@
             test_description, sides, alpha, multiplicity,
             statistic: {kind, value, df1, df2, decimals} | null, p_reported,
             effect: {kind, value, ci_low, ci_high} | null,
+            counts: {events_1, total_1, events_2, total_2}   (only when a 2x2 table was given),
             n_analysed, verdict, comment}]
     stopping_rule_followed, stopping_note, exclusions_as_planned, exclusions_applied, summary
 
 ``hypothesis`` and ``outcome`` hold plan keys ("" when the row has none, or reports an outcome
-that is not in the plan, named in ``outcome_name``).
+that is not in the plan, named in ``outcome_name``). ``counts`` was added later and is absent,
+not null, from a row without a 2x2 table, so rows sealed before it keep exactly their shape.
 """
 
 from __future__ import annotations
@@ -100,6 +102,9 @@ def row_payload(cleaned: dict[str, Any], *, plan: dict[str, Any], key: str) -> d
             "ci_low": cleaned.get("ci_low"),
             "ci_high": cleaned.get("ci_high"),
         }
+    if cleaned.get("total_1") is not None:
+        # ResultRowForm accepts the four counts together or not at all.
+        row["counts"] = {name: cleaned[name] for name in ("events_1", "total_1", "events_2", "total_2")}
     return row
 
 

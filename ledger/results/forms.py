@@ -14,6 +14,22 @@ from ledger.stats.errors import StatsInputError
 from ledger.stats.pvalues import parse_reported_p
 
 NUMBER = forms.NumberInput(attrs={"step": "any", "inputmode": "decimal"})
+COUNT_FIELDS = ("events_1", "total_1", "events_2", "total_2")
+
+
+class EventCountField(forms.IntegerField):
+    """A number of participants with the event: a whole number, 0 allowed."""
+
+    default_error_messages = {
+        "invalid": "Enter a whole number of participants with the event, such as 12.",
+        "min_value": "A count of events cannot be negative; enter 0 if nobody had the event.",
+    }
+
+    def __init__(self, **kwargs):
+        kwargs.setdefault("min_value", 0)
+        kwargs.setdefault("max_value", 100_000_000)
+        kwargs.setdefault("widget", forms.NumberInput(attrs={"inputmode": "numeric"}))
+        super().__init__(**kwargs)
 
 
 class ResultRowForm(forms.Form):
@@ -45,6 +61,12 @@ class ResultRowForm(forms.Form):
     effect_value = FiniteFloatField(label="Effect", required=False, widget=NUMBER)
     ci_low = FiniteFloatField(label="CI low", required=False, widget=NUMBER)
     ci_high = FiniteFloatField(label="CI high", required=False, widget=NUMBER)
+    # An optional 2x2 table, for binary outcomes: group 1 is the group the effect is about
+    # (e.g. the intervention), group 2 the comparison.
+    events_1 = EventCountField(label="Events, group 1", required=False)
+    total_1 = PositiveCountField(label="Size of group 1", required=False)
+    events_2 = EventCountField(label="Events, group 2", required=False)
+    total_2 = PositiveCountField(label="Size of group 2", required=False)
     n_analysed = PositiveCountField(label="N analysed")
     verdict = forms.ChoiceField(choices=Verdict.choices)
     comment = forms.CharField(required=False, max_length=5000, widget=TEXTAREA_SHORT)
@@ -69,11 +91,11 @@ class ResultRowForm(forms.Form):
         if cleaned.get("outcome") == UNPLANNED and not cleaned.get("outcome_name"):
             self.add_error("outcome_name", "Name the outcome that was not in the plan.")
         kind = cleaned.get("statistic_kind")
-        if kind and cleaned.get("statistic") is None:
+        if kind and self._missing(cleaned, "statistic"):
             self.add_error("statistic", "Enter the value of the statistic, or choose “none” as the statistic.")
-        if kind in NEEDS_DF1 and cleaned.get("df1") is None:
+        if kind in NEEDS_DF1 and self._missing(cleaned, "df1"):
             self.add_error("df1", f"A {StatisticKind(kind).label} statistic needs its degrees of freedom.")
-        if kind in NEEDS_DF2 and cleaned.get("df2") is None:
+        if kind in NEEDS_DF2 and self._missing(cleaned, "df2"):
             self.add_error("df2", "An F statistic needs the denominator degrees of freedom too.")
         if kind == StatisticKind.R and cleaned.get("statistic") is not None and not -1 < cleaned["statistic"] < 1:
             self.add_error("statistic", "A correlation lies strictly between -1 and 1.")
@@ -83,9 +105,32 @@ class ResultRowForm(forms.Form):
                 self.add_error("ci_high", "The upper confidence limit is below the lower one.")
             elif value is not None and not low <= value <= high:
                 self.add_error("effect_value", "The effect lies outside its own confidence interval.")
-        if (low is None) != (high is None):
+        if self._missing(cleaned, "ci_low") != self._missing(cleaned, "ci_high") and not (
+            {"ci_low", "ci_high"} & self.errors.keys()
+        ):
             self.add_error("ci_high" if high is None else "ci_low", "Give both confidence limits, or neither.")
+        self._clean_counts(cleaned)
         return cleaned
+
+    def _missing(self, cleaned, name: str) -> bool:
+        """Left empty, as opposed to filled in wrongly (which already has its own message)."""
+        return cleaned.get(name) is None and name not in self.errors
+
+    def _clean_counts(self, cleaned):
+        given = [name for name in COUNT_FIELDS if cleaned.get(name) is not None]
+        if given and len(given) < len(COUNT_FIELDS) and not any(name in self.errors for name in COUNT_FIELDS):
+            for name in COUNT_FIELDS:
+                if name not in given:
+                    self.add_error(
+                        name, "Give all four numbers of the 2x2 table (events and size of each group), or none."
+                    )
+            return
+        for group in ("1", "2"):
+            events, total = cleaned.get(f"events_{group}"), cleaned.get(f"total_{group}")
+            if events is not None and total is not None and events > total:
+                self.add_error(
+                    f"events_{group}", f"Group {group} has {total} participants, so it cannot have {events} events."
+                )
 
 
 class BaseResultRowFormSet(forms.BaseFormSet):
@@ -143,7 +188,7 @@ class PublicationForm(forms.Form):
 
     def clean(self):
         cleaned = super().clean()
-        if cleaned.get("status") == PublicationStatus.PUBLISHED and not cleaned.get("doi"):
+        if cleaned.get("status") == PublicationStatus.PUBLISHED and not cleaned.get("doi") and "doi" not in self.errors:
             self.add_error("doi", "Give the DOI of the publication, like 10.1000/xyz123.")
         return cleaned
 
