@@ -55,6 +55,11 @@ POSTGRES_FUNCTIONS = [
         IF TG_OP = 'DELETE' THEN
             RAISE EXCEPTION 'forebook ledger: the chain head cannot be deleted';
         END IF;
+        -- A second head row is refused by the primary key (or skipped by ON CONFLICT DO NOTHING
+        -- when two first writers race); there is nothing to check for it here.
+        IF TG_OP = 'INSERT' AND EXISTS (SELECT 1 FROM chain_chainhead WHERE id = NEW.id) THEN
+            RETURN NEW;
+        END IF;
         IF NEW.size = 0 THEN
             tip_hash := '{GENESIS}';
         ELSE

@@ -20,6 +20,7 @@ LAB_CAPABILITIES: dict[str, frozenset[str]] = {
     "can_manage_members": frozenset({Role.MANAGER}),
     "can_enrol_studies": frozenset({Role.MANAGER, Role.INVESTIGATOR}),
     "can_change_lab_settings": frozenset({Role.MANAGER}),
+    "can_edit_lines": frozenset({Role.MANAGER, Role.INVESTIGATOR}),
 }
 
 # Study capabilities: granted to managers on every study, to investigators on their own studies.

@@ -27,6 +27,10 @@ if len(SECRET_KEY) < 50 or SECRET_KEY.startswith("dev-only"):
         "`python -c 'import secrets; print(secrets.token_urlsafe(64))'`."
     )
 ALLOWED_HOSTS = [host.strip() for host in required("ALLOWED_HOSTS").split(",") if host.strip()]
+if not ALLOWED_HOSTS:
+    raise ImproperlyConfigured(
+        "ALLOWED_HOSTS names no host. Give the site's host names, comma-separated, e.g. forebook.example.org."
+    )
 
 required("DATABASE_URL")
 DATABASES = {"default": database_from_env("")}
@@ -48,5 +52,7 @@ SESSION_COOKIE_SECURE = True
 CSRF_COOKIE_SECURE = True
 SECURE_HSTS_SECONDS = env_int("SECURE_HSTS_SECONDS", 31_536_000)
 SECURE_HSTS_INCLUDE_SUBDOMAINS = env_bool("SECURE_HSTS_INCLUDE_SUBDOMAINS", True)
-SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", False)
+# "preload" in the header only states consent; the site joins browsers' preload lists only when
+# someone submits it. Set false for a host name that must stay reachable over plain HTTP.
+SECURE_HSTS_PRELOAD = env_bool("SECURE_HSTS_PRELOAD", True)
 SESSION_COOKIE_AGE = env_int("SESSION_COOKIE_AGE", 60 * 60 * 12)

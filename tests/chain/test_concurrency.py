@@ -45,3 +45,13 @@ def test_eight_writers_appending_200_each_leave_one_gap_free_chain():
     assert report.ok, report.problem
     assert report.count == total
     assert connection.vendor == "postgresql"
+
+
+@pytest.mark.postgres
+@pytest.mark.django_db
+def test_a_late_first_writer_reuses_the_head_another_writer_created(lab):
+    # The fallback of locked_chain_head for a database without a head row: when another writer has
+    # already created it and appended, inserting the head again must be skipped, not refused.
+    entry_append(kind=EntryKind.PUBLICATION_LINKED, payload={"first": True}, lab=lab)
+    ChainHead.objects.bulk_create([ChainHead(pk=1)], ignore_conflicts=True)
+    assert ChainHead.objects.get().size == 1

@@ -22,3 +22,8 @@ class TriggerLiftingFlushMixin:
                     cursor.execute(sql)
                 for statement in triggers.install_statements(vendor, schema=schema):
                     cursor.execute(statement)
+                # Put back the empty chain head that migrations create, as a fresh database has it.
+                cursor.execute(
+                    "INSERT INTO chain_chainhead (id, size, head_hash, frontier) VALUES (1, 0, %s, '')",
+                    [triggers.GENESIS],
+                )
