@@ -10,6 +10,7 @@ PG_URL ?= postgres://postgres@127.0.0.1:5432/forebook
 ## Run the app with the invented demo lab on SQLite at http://127.0.0.1:8000 (no services needed).
 demo: $(VENV)/.installed
 	$(PY) manage.py migrate --noinput
+	$(PY) manage.py create_signing_identity
 	$(PY) manage.py seed_demo
 	@echo "Open http://127.0.0.1:8000 and sign in as maren / lantern-demo-2026 (see README)."
 	$(PY) manage.py runserver 127.0.0.1:8000

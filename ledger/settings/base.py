@@ -68,10 +68,18 @@ INSTALLED_APPS = [
     "ledger.chain",
     "ledger.plans",
     "ledger.results",
+    "ledger.lines",
+    "ledger.records",
+    "ledger.reports",
+    "rest_framework",
+    "drf_spectacular",
+    "drf_spectacular_sidecar",
+    "ledger.api",
 ]
 
 MIDDLEWARE = [
     "django.middleware.security.SecurityMiddleware",
+    "ledger.core.middleware.SecurityHeadersMiddleware",
     "whitenoise.middleware.WhiteNoiseMiddleware",
     "django.contrib.sessions.middleware.SessionMiddleware",
     "django.middleware.common.CommonMiddleware",
@@ -114,6 +122,26 @@ def database_from_env(default_url: str) -> dict:
 
 
 DATABASES = {"default": database_from_env(f"sqlite:///{BASE_DIR / 'db.sqlite3'}")}
+
+
+def cache_from_env() -> dict:
+    """CACHE_URL names a Redis server (redis://, rediss:// or unix://); empty means a cache per process.
+
+    The API's rate limits count in this cache: with several web processes, only a shared cache
+    (Redis) makes the limit hold across them.
+    """
+    url = os.environ.get("CACHE_URL", "").strip()
+    if not url:
+        return {"default": {"BACKEND": "django.core.cache.backends.locmem.LocMemCache", "LOCATION": "forebook"}}
+    if not url.startswith(("redis://", "rediss://", "unix://")):
+        raise ImproperlyConfigured(
+            f"CACHE_URL must be a Redis URL such as redis://127.0.0.1:6379/1, or empty for a per-process cache; "
+            f"got {url!r}."
+        )
+    return {"default": {"BACKEND": "django.core.cache.backends.redis.RedisCache", "LOCATION": url}}
+
+
+CACHES = cache_from_env()
 DEFAULT_AUTO_FIELD = "django.db.models.BigAutoField"
 
 AUTH_PASSWORD_VALIDATORS = [
@@ -174,12 +202,87 @@ SECURE_CONTENT_TYPE_NOSNIFF = True
 # Forebook's own settings.
 FOREBOOK_SITE_NAME = os.environ.get("FOREBOOK_SITE_NAME", "Forebook")
 
+# Signed checkpoints and signed records (ledger.chain.checkpoints, ledger.records). Key and
+# certificate paths left empty mean the files in FOREBOOK_IDENTITY_DIR that
+# `python manage.py create_signing_identity` makes (a self-signed development identity).
+FOREBOOK_IDENTITY_DIR = Path(os.environ.get("FOREBOOK_IDENTITY_DIR") or DATA_DIR / "identity")
+FOREBOOK_SIGNING_KEY = os.environ.get("FOREBOOK_SIGNING_KEY", "")
+FOREBOOK_SIGNING_CERT = os.environ.get("FOREBOOK_SIGNING_CERT", "")
+FOREBOOK_SIGNING_KEY_PASSPHRASE = os.environ.get("FOREBOOK_SIGNING_KEY_PASSPHRASE", "")
+FOREBOOK_LOG_KEY = os.environ.get("FOREBOOK_LOG_KEY", "")
+# The name of a new log key and of the checkpoints it signs: a schema-less URL, e.g. lab.example.org/forebook-log.
+FOREBOOK_LOG_ORIGIN = os.environ.get("FOREBOOK_LOG_ORIGIN", "")
+# An RFC 3161 timestamp authority; set, record signatures are PAdES B-T instead of B-B.
+FOREBOOK_TSA_URL = os.environ.get("FOREBOOK_TSA_URL", "")
+FOREBOOK_CHECKPOINT_INTERVAL_SECONDS = env_int("FOREBOOK_CHECKPOINT_INTERVAL_SECONDS", 3600)
+FOREBOOK_RECORDS_DIR = Path(os.environ.get("FOREBOOK_RECORDS_DIR") or DATA_DIR / "records")
+FOREBOOK_RECORD_EXPIRY_HOURS = env_int("FOREBOOK_RECORD_EXPIRY_HOURS", 168)
+FOREBOOK_RECORD_UPLOAD_MAX_BYTES = env_int("FOREBOOK_RECORD_UPLOAD_MAX_BYTES", 20 * 1024 * 1024)
+
+# Every periodic job, in one place (run `celery -A ledger beat` beside the worker).
+CELERY_BEAT_SCHEDULE = {
+    "sign-checkpoint-when-new-entries": {
+        "task": "ledger.chain.tasks.checkpoint_sign_due",
+        "schedule": FOREBOOK_CHECKPOINT_INTERVAL_SECONDS,
+    },
+    "purge-expired-record-files": {
+        "task": "ledger.records.tasks.record_exports_purge",
+        "schedule": 3600,
+    },
+    "purge-expired-report-files": {
+        "task": "ledger.reports.tasks.report_exports_purge",
+        "schedule": 3600,
+    },
+    "notify-overdue-results-daily": {
+        "task": "ledger.reports.tasks.overdue_scan",
+        "schedule": 24 * 3600,
+    },
+}
+
 LOGGING = {
     "version": 1,
     "disable_existing_loggers": False,
     "formatters": {"plain": {"format": "%(asctime)s %(levelname)s %(name)s %(message)s"}},
     "handlers": {"console": {"class": "logging.StreamHandler", "formatter": "plain"}},
     "root": {"handlers": ["console"], "level": os.environ.get("LOG_LEVEL", "INFO")},
-    "loggers": {"django.db.backends": {"level": "WARNING"}},
+    # WeasyPrint and fontTools report every layout step at INFO; only their problems matter here.
+    "loggers": {
+        "django.db.backends": {"level": "WARNING"},
+        "weasyprint": {"level": "WARNING"},
+        "fontTools": {"level": "WARNING"},
+    },
 }
 CSRF_FAILURE_VIEW = "ledger.core.views.csrf_failure"
+
+# The JSON API for analysis scripts (ledger.api): personal API tokens only, no session, so no CSRF.
+REST_FRAMEWORK = {
+    "DEFAULT_AUTHENTICATION_CLASSES": ["ledger.api.authentication.ApiTokenAuthentication"],
+    "DEFAULT_PERMISSION_CLASSES": ["ledger.api.authentication.HasApiToken"],
+    "DEFAULT_PARSER_CLASSES": ["ledger.api.parsers.ExactNumberJSONParser"],
+    "DEFAULT_RENDERER_CLASSES": ["rest_framework.renderers.JSONRenderer"],
+    "DEFAULT_SCHEMA_CLASS": "drf_spectacular.openapi.AutoSchema",
+    "EXCEPTION_HANDLER": "ledger.api.errors.api_exception_handler",
+}
+SPECTACULAR_SETTINGS = {
+    "TITLE": "Forebook API",
+    "DESCRIPTION": (
+        "Record results from analysis scripts and read a lab's studies, sealed plans and ledger entries. "
+        "Authenticate with a personal API token (Authorization: Bearer fb_...), created on the API tokens page "
+        "of your lab. The public mirror of the ledger needs no token."
+    ),
+    "VERSION": "1",
+    "SCHEMA_PATH_PREFIX": r"/api/v1",
+    "SERVE_INCLUDE_SCHEMA": False,
+    "SERVE_PUBLIC": True,
+    "SERVE_AUTHENTICATION": [],
+    "SERVE_PERMISSIONS": ["rest_framework.permissions.AllowAny"],
+    # Swagger UI's files come from the drf-spectacular-sidecar package, served as our own static files:
+    # no CDN, so the page works under a Content-Security-Policy of 'self'.
+    "SWAGGER_UI_DIST": "SIDECAR",
+    "SWAGGER_UI_FAVICON_HREF": "SIDECAR",
+    "REDOC_DIST": "SIDECAR",
+}
+# Rates per API token ("N/second|minute|hour|day"); the public mirror's rate counts per client address.
+FOREBOOK_API_SUBMISSION_RATE = os.environ.get("FOREBOOK_API_SUBMISSION_RATE", "30/minute")
+FOREBOOK_API_READ_RATE = os.environ.get("FOREBOOK_API_READ_RATE", "600/minute")
+FOREBOOK_API_PUBLIC_RATE = os.environ.get("FOREBOOK_API_PUBLIC_RATE", "300/minute")

@@ -98,11 +98,12 @@ document.addEventListener("DOMContentLoaded", () => {
   document.querySelectorAll("output.live-check").forEach(setUpLiveCheck);
 });
 
-// Signed record exports on the study page: poll each unfinished export's status until it is
-// ready (show the download link) or failed (show the error). Without JS, reloading shows the same.
-const RECORD_POLL_MS = 1500;
+// Generated files (signed records on the study page, lab reports on the report page; markup in
+// templates/includes/export_item.html): poll each unfinished export's status until it is ready
+// (show the download link) or failed (show the error). Without JS, reloading shows the same.
+const EXPORT_POLL_MS = 1500;
 
-function showRecordStatus(item, data) {
+function showExportStatus(item, data) {
   item.querySelector(".record-stage").textContent = data.finished ? data.status_label : (data.stage || data.status_label);
   const progress = item.querySelector(".record-progress");
   progress.value = data.progress;
@@ -117,23 +118,23 @@ function showRecordStatus(item, data) {
   error.hidden = !data.error;
 }
 
-function pollRecordExport(item) {
+function pollExport(item) {
   const poll = async () => {
     try {
       const response = await fetch(item.dataset.recordStatus, { headers: { Accept: "application/json" } });
       if (!response.ok) throw new Error(`status ${response.status}`);
       const data = await response.json();
-      showRecordStatus(item, data);
+      showExportStatus(item, data);
       item.dataset.finished = String(data.finished);
-      if (!data.finished) setTimeout(poll, RECORD_POLL_MS);
+      if (!data.finished) setTimeout(poll, EXPORT_POLL_MS);
     } catch (error) {
       const stage = item.querySelector(".record-stage");
       stage.textContent = "Could not reach the server; reload the page to see the export's progress.";
     }
   };
-  setTimeout(poll, RECORD_POLL_MS);
+  setTimeout(poll, EXPORT_POLL_MS);
 }
 
 document.addEventListener("DOMContentLoaded", () => {
-  document.querySelectorAll("[data-record-status][data-finished='false']").forEach(pollRecordExport);
+  document.querySelectorAll("[data-record-status][data-finished='false']").forEach(pollExport);
 });
