@@ -17,11 +17,11 @@ demo: $(VENV)/.installed
 
 ## Install everything the tests need (apt packages included), start PostgreSQL and Redis, run the suite.
 test: $(VENV)/.installed-test system-packages services
-	DATABASE_URL=$${DATABASE_URL:-$(PG_URL)} $(VENV)/bin/pytest $(PYTEST_ARGS)
+	DATABASE_URL=$${DATABASE_URL:-$(PG_URL)} $(VENV)/bin/pytest -n auto $(PYTEST_ARGS)
 
 ## The same suite on the embedded SQLite default (PostgreSQL-only tests are skipped, with a reason).
 test-sqlite: $(VENV)/.installed-test system-packages
-	DATABASE_URL=sqlite:///$(CURDIR)/tests/.unused.sqlite3 $(VENV)/bin/pytest $(PYTEST_ARGS)
+	DATABASE_URL=sqlite:///$(CURDIR)/tests/.unused.sqlite3 $(VENV)/bin/pytest -n auto $(PYTEST_ARGS)
 
 ## Benchmarks and their budgets (see README, Performance).
 bench: $(VENV)/.installed-test services

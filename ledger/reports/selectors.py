@@ -34,6 +34,7 @@ from django.http import Http404
 from ledger.chain.models import Entry, EntryKind
 from ledger.compare import STUDY_SUBJECT, results_due_on
 from ledger.labs.models import Lab, Membership
+from ledger.lines.selectors import LineSummary, lab_line_summaries
 from ledger.plans.models import PlanVersion, Study, StudyState
 from ledger.reports.models import ReportExport
 from ledger.results.models import PublicationLink, PublicationStatus, ResultReport, Verdict
@@ -206,6 +207,9 @@ class LabReport:
     prior_odds: float
     grace_months: int
     studies: tuple[StudyLine, ...]
+    # The lab's research lines, pooled over every sealed result (not limited to the date range:
+    # a line's evidence is the whole record of its effect).
+    research_lines: tuple[LineSummary, ...] = ()
 
     # --- counts of outcomes -------------------------------------------------------------------
 
@@ -527,6 +531,7 @@ def lab_report(
             )
             for study in rows
         ),
+        research_lines=tuple(lab_line_summaries(lab=lab)),
     )
 
 

@@ -135,7 +135,7 @@ def notice_threshold(*, due_on: dt.date, today: dt.date) -> NoticeThreshold | No
 
 def _notice_message(*, study: Study, threshold: NoticeThreshold, due_on: dt.date, today: dt.date) -> tuple[str, str]:
     site = settings.FOREBOOK_SITE_NAME
-    where = f"the study's page in {site} ({study.get_absolute_url()})"
+    where = f"the study's page in {site} ({settings.FOREBOOK_BASE_URL.rstrip('/')}{study.get_absolute_url()})"
     basis = (
         f"expected completion {study.expected_completion.isoformat()} plus the lab's grace period of "
         f"{study.lab.overdue_grace_months} months"

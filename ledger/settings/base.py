@@ -201,6 +201,8 @@ SECURE_CONTENT_TYPE_NOSNIFF = True
 
 # Forebook's own settings.
 FOREBOOK_SITE_NAME = os.environ.get("FOREBOOK_SITE_NAME", "Forebook")
+# The address people open the site at, for links in e-mails sent by background jobs (which have no request).
+FOREBOOK_BASE_URL = os.environ.get("FOREBOOK_BASE_URL", "http://127.0.0.1:8000")
 
 # Signed checkpoints and signed records (ledger.chain.checkpoints, ledger.records). Key and
 # certificate paths left empty mean the files in FOREBOOK_IDENTITY_DIR that

@@ -60,6 +60,6 @@ def test_the_same_number_of_queries_at_10_and_at_500_studies(client, investigato
         "overdue": 1 + 70,
         "withdrawn": 1 + 70,
     }
-    assert large == small == 4  # studies, investigators, amendments, explanations
+    assert large == small == 5  # studies, investigators, amendments, explanations, research lines
     assert page_queries(client, lab, "reports:lab") == small_page
     assert page_queries(client, lab, "reports:chart", chart="outcomes") == small_chart
