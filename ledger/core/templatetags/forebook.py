@@ -108,3 +108,22 @@ def percent(value, digits: int = 0):
 @register.filter
 def get_item(mapping, key):
     return mapping.get(key) if mapping else None
+
+
+# The fields that best name a list item, in order of preference.
+SUMMARY_FIELDS = ("statement", "name", "outcome_name", "outcome", "hypothesis")
+
+
+@register.filter
+def item_summary(form, length: int = 90) -> str:
+    """A one-line name for a folded list item: its statement or name as currently entered."""
+    for name in SUMMARY_FIELDS:
+        if name in form.fields:
+            value = form[name].value()
+            if value:
+                text = " ".join(str(value).split())
+                text = text if len(text) <= length else text[: length - 1] + "…"
+                if "role" in form.fields and form["role"].value() == "primary":
+                    text += " · primary"
+                return text
+    return ""
