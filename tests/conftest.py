@@ -38,6 +38,18 @@ def outsider(db):
 
 
 @pytest.fixture
+def page(monkeypatch):
+    """A fresh page in Debian's Chromium, for browser tests (marked `browser`, with live_server)."""
+    from tests.support.browser import chromium_page
+
+    # Playwright's sync API runs an event loop in the test's thread; the test's own ORM calls stay
+    # synchronous and safe, which Django can only be told through this variable.
+    monkeypatch.setenv("DJANGO_ALLOW_ASYNC_UNSAFE", "true")
+    with chromium_page() as page:
+        yield page
+
+
+@pytest.fixture
 def user(db):
     return UserFactory()
 

@@ -1,52 +1,23 @@
 """One study from enrolment to a sealed null result, driven through the pages in Debian's Chromium."""
+
 from __future__ import annotations
 
 import datetime as dt
 import json
-import os
 import re
 
 import pytest
-from django.db import connections
-from playwright.sync_api import Page, expect, sync_playwright
+from playwright.sync_api import Page, expect
 
 from ledger.chain.models import Entry, EntryKind
 from ledger.labs.models import Role
 from ledger.plans.models import Study, StudyState
-from tests.factories import PASSWORD, LabFactory, MembershipFactory
-
-# Playwright's sync API runs an event loop in this thread; the test's own ORM calls (fixtures and
-# checks between steps) are still synchronous and safe.
-os.environ["DJANGO_ALLOW_ASYNC_UNSAFE"] = "true"
+from tests.factories import LabFactory, MembershipFactory
+from tests.support.browser import sign_in
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
 
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--disable-background-networking", "--disable-component-update", "--disable-sync", "--no-first-run"]
 STUDY_TITLE = "Lamp flicker and proofreading accuracy"
-
-
-@pytest.fixture
-def page():
-    with sync_playwright() as playwright:
-        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        try:
-            context = browser.new_context()
-            page = context.new_page()
-            page.set_default_timeout(15_000)
-            yield page
-        finally:
-            browser.close()
-            # ORM calls made while Playwright's loop runs open their own connection; left open, it
-            # keeps PostgreSQL from dropping the test database at the end of the session.
-            connections.close_all()
-
-
-def sign_in(page: Page, base_url: str, username: str) -> None:
-    page.goto(f"{base_url}/accounts/login/")
-    page.fill("input[name='username']", username)
-    page.fill("input[name='password']", PASSWORD)
-    page.get_by_role("button", name="Sign in").click()
 
 
 def fill_hypothesis(page: Page, index: int, statement: str, direction: str) -> None:
@@ -114,4 +85,3 @@ def test_a_plan_with_two_hypotheses_ends_as_a_null_result_on_the_dashboard(live_
     row = latest.get_by_role("row").filter(has_text=code)
     expect(row).to_contain_text(STUDY_TITLE)
     expect(row).to_contain_text("Not supported (null result)")
-

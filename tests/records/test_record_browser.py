@@ -4,37 +4,17 @@ download link, or the error, without reloading (static/js/forebook.js)."""
 from __future__ import annotations
 
 import datetime as dt
-import os
 
 import pytest
-from django.db import connections
 from django.utils import timezone
-from playwright.sync_api import expect, sync_playwright
+from playwright.sync_api import expect
 
 from ledger.records.models import ExportStatus, RecordExport
 from ledger.records.services import record_export_run
-from tests.factories import PASSWORD, reported_study
-
-# Playwright's sync API runs an event loop in this thread; the test's ORM calls stay synchronous.
-os.environ["DJANGO_ALLOW_ASYNC_UNSAFE"] = "true"
+from tests.factories import reported_study
+from tests.support.browser import sign_in
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
-
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--disable-background-networking", "--disable-component-update", "--disable-sync", "--no-first-run"]
-
-
-@pytest.fixture
-def page():
-    with sync_playwright() as playwright:
-        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        try:
-            page = browser.new_context().new_page()
-            page.set_default_timeout(20_000)
-            yield page
-        finally:
-            browser.close()
-            connections.close_all()
 
 
 def queued_export(study, member) -> RecordExport:
@@ -51,10 +31,7 @@ def queued_export(study, member) -> RecordExport:
 def test_the_page_shows_the_download_link_once_the_worker_finishes(live_server, page, investigator, settings, tmp_path):
     study = reported_study(member=investigator)
     ready_export = queued_export(study, investigator)
-    page.goto(f"{live_server.url}/accounts/login/")
-    page.fill("input[name='username']", investigator.user.username)
-    page.fill("input[name='password']", PASSWORD)
-    page.get_by_role("button", name="Sign in").click()
+    sign_in(page, live_server.url, investigator.user.username)
     page.goto(f"{live_server.url}{study.get_absolute_url()}")
 
     item = page.locator(f"[data-record-status$='/{ready_export.code}/status/']")

@@ -7,39 +7,17 @@ those with major findings. No external computation here: the counts follow from 
 
 from __future__ import annotations
 
-import os
 import re
 
 import pytest
-from django.db import connections
-from playwright.sync_api import expect, sync_playwright
+from playwright.sync_api import expect
 
 from ledger.labs.models import Role
 from ledger.plans.models import Study, StudyState
-from tests.factories import PASSWORD, LabFactory, MembershipFactory, collecting_study
-
-# Playwright's sync API runs an event loop in this thread; the test's own ORM calls stay synchronous.
-os.environ["DJANGO_ALLOW_ASYNC_UNSAFE"] = "true"
+from tests.factories import LabFactory, MembershipFactory, collecting_study
+from tests.support.browser import sign_in
 
 pytestmark = [pytest.mark.browser, pytest.mark.django_db(transaction=True)]
-
-CHROMIUM = "/usr/bin/chromium"
-CHROMIUM_ARGS = ["--disable-background-networking", "--disable-component-update", "--disable-sync", "--no-first-run"]
-
-
-@pytest.fixture
-def page():
-    with sync_playwright() as playwright:
-        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
-        try:
-            page = browser.new_context().new_page()
-            page.set_default_timeout(20_000)
-            yield page
-        finally:
-            browser.close()
-            # ORM calls made while Playwright's loop runs open their own connection; left open, it
-            # keeps PostgreSQL from dropping the test database at the end of the session.
-            connections.close_all()
 
 
 def test_a_switched_primary_outcome_shows_in_the_report_as_a_major_finding(live_server, page):
@@ -49,10 +27,7 @@ def test_a_switched_primary_outcome_shows_in_the_report_as_a_major_finding(live_
 
     console = []
     page.on("console", lambda message: console.append(message.text))
-    page.goto(f"{live_server.url}/accounts/login/")
-    page.fill("input[name='username']", member.user.username)
-    page.fill("input[name='password']", PASSWORD)
-    page.get_by_role("button", name="Sign in").click()
+    sign_in(page, live_server.url, member.user.username)
     page.goto(f"{live_server.url}/labs/{lab.slug}/studies/{study.code}/results/")
 
     # The primary row (H1, registered on O1) now reports the secondary outcome O2.
